@@ -1,0 +1,90 @@
+"""Command-line interface: ``trackscan SUBCOMMAND ...``.
+
+Each subcommand is a module in this package with a docstring (its help), an
+``add_arguments(parser)`` function and a ``run(args) -> int`` function.  The
+registry below lists them; modules are imported only when used.
+
+Exit codes: 0 success, 1 a computation failed, 2 bad input (one line on
+stderr naming the file and the problem; ``--traceback`` shows the trace).
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import logging
+import sys
+
+from trackscan import __version__
+from trackscan.errors import InputError, TrackscanError
+
+__all__ = ["main", "COMMANDS"]
+
+#: (name, module, one-line summary).  Add a line when a subcommand does real work.
+COMMANDS = [
+    ("inspect", "trackscan.cli.inspect", "read a cube file and print its grid, atoms and electron count"),
+    ("check", "trackscan.cli.check", "validate a scan manifest and the consistency of its frames"),
+]
+
+EXIT_OK = 0
+EXIT_FAILURE = 1
+EXIT_BAD_INPUT = 2
+
+
+def _build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="trackscan",
+        description="Follow the topology of the electron density along a scan and "
+                    "locate where the molecular structure changes.",
+    )
+    parser.add_argument("--version", action="version", version=f"trackscan {__version__}")
+    parser.add_argument("-v", "--verbose", action="count", default=0,
+                        help="more messages on stderr (repeat for debug)")
+    parser.add_argument("-q", "--quiet", action="store_true", help="only errors on stderr")
+    parser.add_argument("--traceback", action="store_true",
+                        help="show the Python traceback of an error")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    for name, module_name, summary in COMMANDS:
+        module = importlib.import_module(module_name)
+        p = sub.add_parser(name, help=summary, description=module.__doc__,
+                           formatter_class=argparse.RawDescriptionHelpFormatter)
+        module.add_arguments(p)
+        p.set_defaults(_run=module.run)
+    return parser
+
+
+def _setup_logging(verbose: int, quiet: bool) -> None:
+    level = logging.ERROR if quiet else (logging.DEBUG if verbose > 1 else
+                                         logging.INFO if verbose == 1 else logging.WARNING)
+    root = logging.getLogger("trackscan")
+    root.handlers.clear()
+    handler = logging.StreamHandler(sys.stderr)
+    handler.setFormatter(logging.Formatter("%(levelname)s: %(message)s"))
+    root.addHandler(handler)
+    root.setLevel(level)
+    root.propagate = False
+
+
+def main(argv=None) -> int:
+    """Run the command line; returns the exit code."""
+    parser = _build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "command", None):
+        parser.print_help(sys.stderr)
+        return EXIT_BAD_INPUT
+    _setup_logging(args.verbose, args.quiet)
+    try:
+        return int(args._run(args) or 0)
+    except InputError as exc:
+        if args.traceback:
+            raise
+        print(f"trackscan: error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except TrackscanError as exc:
+        if args.traceback:
+            raise
+        print(f"trackscan: error: {exc}", file=sys.stderr)
+        return EXIT_FAILURE
+    except KeyboardInterrupt:
+        print("trackscan: interrupted", file=sys.stderr)
+        return 130

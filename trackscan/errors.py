@@ -1,0 +1,155 @@
+"""The one exception hierarchy of trackscan.
+
+Every error that trackscan raises on purpose derives from
+:class:`TrackscanError`.  The command line maps :class:`InputError` (bad
+files, bad manifests, bad settings) to exit code 2 and prints its message as
+one line; other trackscan errors exit with code 1.
+
+Hierarchy::
+
+    TrackscanError
+    ├── InputError             bad input from the user (exit code 2)
+    │   ├── ParseError         a file could not be read (path, line number)
+    │   ├── ConfigError        a manifest or settings key is wrong (key path)
+    │   └── ConsistencyError   frames of one scan disagree (atoms differ)
+    ├── AlgorithmError         a computation could not finish
+    │   ├── ConvergenceError   an iteration did not converge
+    │   └── TrackingError      frames could not be followed
+    └── GeneratorError         a density source failed (program, SCF, ...)
+"""
+
+from __future__ import annotations
+
+import os
+
+__all__ = [
+    "TrackscanError",
+    "InputError",
+    "ParseError",
+    "ConfigError",
+    "ConsistencyError",
+    "AlgorithmError",
+    "ConvergenceError",
+    "TrackingError",
+    "GeneratorError",
+    "TrackscanWarning",
+]
+
+
+class TrackscanError(Exception):
+    """Base class of every error trackscan raises on purpose."""
+
+
+class InputError(TrackscanError):
+    """Input from the user is wrong: a file, a manifest, a setting.
+
+    Parameters
+    ----------
+    message : str
+        What is wrong, in one line.
+    path : str or os.PathLike, optional
+        The file concerned; it is prefixed to the message.
+    """
+
+    def __init__(self, message: str, path: str | os.PathLike | None = None):
+        self.path = None if path is None else os.fspath(path)
+        self.message = message
+        super().__init__(self._format())
+
+    def _format(self) -> str:
+        if self.path is None:
+            return self.message
+        return f"{self.path}: {self.message}"
+
+
+class ParseError(InputError):
+    """A file could not be parsed.
+
+    Parameters
+    ----------
+    message : str
+        What is wrong.
+    path : str or os.PathLike, optional
+        The file.
+    lineno : int, optional
+        1-based line number, when the problem sits on one line.
+    """
+
+    def __init__(self, message: str, path: str | os.PathLike | None = None,
+                 lineno: int | None = None):
+        self.lineno = lineno
+        super().__init__(message, path)
+
+    def _format(self) -> str:
+        where = self.path or "<input>"
+        if self.lineno is not None:
+            where = f"{where}:{self.lineno}"
+        return f"{where}: {self.message}"
+
+
+class ConfigError(InputError):
+    """A manifest or settings value is wrong.
+
+    Parameters
+    ----------
+    message : str
+        What is wrong.
+    path : str or os.PathLike, optional
+        The manifest file.
+    key : str, optional
+        Key path such as ``frames[3].file``.
+    lineno : int, optional
+        1-based line number in the YAML file, when known.
+    """
+
+    def __init__(self, message: str, path: str | os.PathLike | None = None,
+                 key: str | None = None, lineno: int | None = None):
+        self.key = key
+        self.lineno = lineno
+        super().__init__(message, path)
+
+    def _format(self) -> str:
+        where = self.path or "<manifest>"
+        if self.lineno is not None:
+            where = f"{where}:{self.lineno}"
+        if self.key:
+            return f"{where}: {self.key}: {self.message}"
+        return f"{where}: {self.message}"
+
+
+class ConsistencyError(InputError):
+    """Frames of one scan disagree (different atoms, different order)."""
+
+
+class AlgorithmError(TrackscanError):
+    """A computation could not finish."""
+
+
+class ConvergenceError(AlgorithmError):
+    """An iteration did not converge.
+
+    Parameters
+    ----------
+    message : str
+        What did not converge.
+    n_iter : int, optional
+        Iterations spent.
+    """
+
+    def __init__(self, message: str, n_iter: int | None = None):
+        self.n_iter = n_iter
+        if n_iter is not None:
+            message = f"{message} (after {n_iter} iterations)"
+        super().__init__(message)
+
+
+class TrackingError(AlgorithmError):
+    """Frames of a scan could not be followed."""
+
+
+class GeneratorError(TrackscanError):
+    """A density source (external program, SCF, model) failed."""
+
+
+class TrackscanWarning(UserWarning):
+    """Warning category for results that are usable but doubtful."""
