@@ -1,0 +1,350 @@
+"""The built-in promolecular density: a sum of spherical free-atom densities.
+
+Each atom H–Ar is a set of Slater-type orbitals with the screening constants
+of Clementi & Raimondi [1]_ (``zeta = Z_eff / n``), occupied in aufbau order
+(1s, 2s, 2p, 3s, 3p) and averaged over the sphere, so that
+
+.. math::
+
+    \\rho_A(r) = \\sum_{nl} N_{nl} \\frac{(2\\zeta_{nl})^{2n+1}}{4\\pi (2n)!}
+                 r^{2n-2} e^{-2\\zeta_{nl} r}.
+
+Each term integrates to its occupation ``N_nl``, so an atom integrates to
+``Z`` exactly.  Value, gradient and Hessian are analytic, so the model
+implements :class:`trackscan.field.Field` and topology runs on it without a
+grid.  It is a *model*: every output made from it says so through
+:attr:`Promolecule.label`.
+
+References
+----------
+.. [1] E. Clementi and D. L. Raimondi, "Atomic screening constants from SCF
+   functions", J. Chem. Phys. 38, 2686 (1963). :DOI:`10.1063/1.1733573`
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from trackscan.grid import DensityGrid
+
+__all__ = ["Promolecule", "CLEMENTI_RAIMONDI", "atom_terms", "MODEL_LABEL", "promolecule_grid",
+           "grid_box"]
+
+MODEL_LABEL = "promolecular model (Clementi–Raimondi STO free atoms)"
+"""Label carried by every output made from the built-in model."""
+
+#: Clementi & Raimondi (1963) effective nuclear charges Z_eff, in the order
+#: 1s, 2s, 2p, 3s, 3p (as tabulated in ../shared/METHODS.md section 5).
+CLEMENTI_RAIMONDI = {
+    1: (1.0000,),
+    2: (1.6875,),
+    3: (2.6906, 1.2792),
+    4: (3.6848, 1.9120),
+    5: (4.6795, 2.5762, 2.4214),
+    6: (5.6727, 3.2166, 3.1358),
+    7: (6.6651, 3.8474, 3.8340),
+    8: (7.6579, 4.4916, 4.4532),
+    9: (8.6501, 5.1276, 5.1000),
+    10: (9.6421, 5.7584, 5.7584),
+    11: (10.6259, 6.5714, 6.8018, 2.5074),
+    12: (11.6089, 7.3920, 7.8258, 3.3075),
+    13: (12.5910, 8.2136, 8.9634, 4.1172, 4.0656),
+    14: (13.5745, 9.0200, 9.9450, 4.9032, 4.2852),
+    15: (14.5578, 9.8250, 10.9612, 5.6418, 4.8864),
+    16: (15.5409, 10.6288, 11.9770, 6.3669, 5.4819),
+    17: (16.5239, 11.4304, 12.9932, 7.0683, 6.1161),
+    18: (17.5075, 12.2304, 14.0082, 7.7568, 6.7641),
+}
+
+# (principal quantum number n, capacity) of the shells 1s, 2s, 2p, 3s, 3p.
+_SHELLS = ((1, 2), (2, 2), (2, 6), (3, 2), (3, 6))
+
+# Below this distance (bohr) from a nucleus the direction of the gradient is
+# undefined (the cusp); see Promolecule.evaluate.
+_R_FLOOR = 1e-8
+
+_CHUNK = 65536
+
+
+def atom_terms(z: int):
+    """Radial terms ``c * r**m * exp(-a*r)`` of the spherical atom `z`.
+
+    Parameters
+    ----------
+    z : int
+        Atomic number, 1 to 18.
+
+    Returns
+    -------
+    list of (c, m, a)
+        Coefficient (e/bohr^(3+m)), power ``m = 2n - 2`` and decay ``a = 2 zeta``
+        (1/bohr) of each occupied shell.
+
+    Raises
+    ------
+    ValueError
+        If `z` is outside H–Ar.
+    """
+    z = int(z)
+    if z not in CLEMENTI_RAIMONDI:
+        raise ValueError(f"the promolecular model covers H-Ar (Z = 1-18), got Z = {z}")
+    left = z
+    terms = []
+    for (n, cap), zeff in zip(_SHELLS, CLEMENTI_RAIMONDI[z]):
+        occ = min(cap, left)
+        left -= occ
+        if occ == 0:
+            break
+        zeta = zeff / n
+        a = 2.0 * zeta
+        c = occ * a ** (2 * n + 1) / (4.0 * math.pi * math.factorial(2 * n))
+        terms.append((c, 2 * n - 2, a))
+    assert left == 0
+    return terms
+
+
+def _radial(terms, r, order):
+    """f, f', f'/r and f'' of a sum of radial terms at distances r (> 0 for 1/r)."""
+    f = np.zeros_like(r)
+    if order == 0:
+        for c, m, a in terms:
+            e = c * np.exp(-a * r)
+            f += e * r ** m if m else e
+        return f, None, None, None
+    d1_over_r = np.zeros_like(r)
+    d2 = np.zeros_like(r)
+    rs = np.maximum(r, _R_FLOOR)
+    for c, m, a in terms:
+        e = c * np.exp(-a * r)
+        if m == 0:
+            f += e
+            d1_over_r -= a * e / rs
+            d2 += a * a * e
+        else:
+            rm2 = r ** (m - 2) if m > 2 else 1.0
+            rm1 = rm2 * r
+            rm = rm1 * r
+            f += e * rm
+            d1_over_r += e * (m * rm2 - a * rm1)
+            d2 += e * (m * (m - 1) * rm2 - 2.0 * a * m * rm1 + a * a * rm)
+    d1 = d1_over_r * r
+    return f, d1, d1_over_r, d2
+
+
+class Promolecule:
+    """Sum of Clementi–Raimondi free-atom densities; a :class:`~trackscan.field.Field`.
+
+    Parameters
+    ----------
+    numbers : (n,) array_like of int
+        Atomic numbers, 1 to 18.
+    positions : (n, 3) array_like, bohr
+        Nuclear positions.
+
+    Attributes
+    ----------
+    label : str
+        ``"promolecular model (Clementi–Raimondi STO free atoms)"``; put it in
+        every output that uses the model.
+    numbers, positions : numpy arrays (read-only)
+
+    Notes
+    -----
+    Cost is O(N * n_atoms) per call; points are processed in chunks of
+    65536 to bound memory.  At a nucleus (within 1e-8 bohr) the density has
+    a cusp: there the gradient is returned as zero and the Hessian as the
+    isotropic limit ``f'(r0)/r0 * I`` at ``r0 = 1e-8`` bohr (large, negative
+    and finite), which marks the nucleus as a maximum.
+
+    References
+    ----------
+    .. [1] E. Clementi and D. L. Raimondi, J. Chem. Phys. 38, 2686 (1963).
+       :DOI:`10.1063/1.1733573`
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> h2 = Promolecule([1, 1], [[0, 0, -0.7], [0, 0, 0.7]])
+    >>> round(float(h2.value(np.zeros((1, 3)))[0]), 5)
+    0.15699
+    """
+
+    label = MODEL_LABEL
+
+    def __init__(self, numbers, positions):
+        numbers = np.array(numbers, dtype=np.int64).reshape(-1)
+        positions = np.array(positions, dtype=np.float64)
+        if positions.shape != (len(numbers), 3):
+            raise ValueError(f"positions has shape {positions.shape}, expected ({len(numbers)}, 3)")
+        if not np.all(np.isfinite(positions)):
+            raise ValueError("positions must be finite")
+        self._terms = [atom_terms(z) for z in numbers]
+        numbers.setflags(write=False)
+        positions.setflags(write=False)
+        self.numbers = numbers
+        self.positions = positions
+
+    @classmethod
+    def from_grid(cls, grid: DensityGrid) -> "Promolecule":
+        """The promolecule of the atoms of a :class:`~trackscan.grid.DensityGrid`."""
+        return cls(grid.numbers, grid.positions)
+
+    def __repr__(self) -> str:
+        return f"Promolecule({len(self.numbers)} atoms)"
+
+    # -- Field protocol --------------------------------------------------
+    def value(self, points) -> np.ndarray:
+        """Density at points, shape (N,) (e/bohr^3)."""
+        return self.evaluate(points, order=0)[0]
+
+    def gradient(self, points) -> np.ndarray:
+        """Gradient at points, shape (N, 3)."""
+        return self.evaluate(points, order=1)[1]
+
+    def hessian(self, points) -> np.ndarray:
+        """Hessian at points, shape (N, 3, 3)."""
+        return self.evaluate(points, order=2)[2]
+
+    def evaluate(self, points, order: int = 2) -> tuple:
+        """Value and derivatives in one pass.
+
+        Parameters
+        ----------
+        points : (N, 3) array_like, bohr
+        order : {0, 1, 2}
+            Highest derivative wanted.
+
+        Returns
+        -------
+        tuple
+            ``(value,)``, ``(value, gradient)`` or ``(value, gradient, hessian)``
+            with shapes (N,), (N, 3), (N, 3, 3).
+        """
+        if order not in (0, 1, 2):
+            raise ValueError(f"order must be 0, 1 or 2, got {order!r}")
+        pts = np.asarray(points, dtype=np.float64)
+        if pts.ndim == 1 and pts.shape == (3,):
+            pts = pts[None, :]
+        if pts.ndim != 2 or pts.shape[1] != 3:
+            raise ValueError(f"points must have shape (N, 3), got {pts.shape}")
+        n = len(pts)
+        val = np.zeros(n)
+        grad = np.zeros((n, 3)) if order >= 1 else None
+        hess = np.zeros((n, 3, 3)) if order >= 2 else None
+        for lo in range(0, n, _CHUNK):
+            hi = min(n, lo + _CHUNK)
+            self._accumulate(pts[lo:hi], order, val[lo:hi],
+                             None if grad is None else grad[lo:hi],
+                             None if hess is None else hess[lo:hi])
+        return (val, grad, hess)[: order + 1]
+
+    def _accumulate(self, pts, order, val, grad, hess):
+        eye = np.eye(3)
+        for pos, terms in zip(self.positions, self._terms):
+            d = pts - pos
+            r = np.sqrt(np.einsum("ij,ij->i", d, d))
+            f, d1, d1r, d2 = _radial(terms, r, order)
+            val += f
+            if order == 0:
+                continue
+            # grad = f'(r) d / r = (f'/r) d; zero at the nucleus (the cusp)
+            near = r < _R_FLOOR
+            grad += np.where(near, 0.0, d1r)[:, None] * d
+            if order == 1:
+                continue
+            r2 = np.where(near, 1.0, r * r)
+            coef = np.where(near, 0.0, (d2 - d1r) / r2)
+            hess += d1r[:, None, None] * eye + coef[:, None, None] * d[:, :, None] * d[:, None, :]
+
+
+def grid_box(positions, *, spacing: float = 0.15, margin: float = 4.0):
+    """Origin, axes and shape of an axis-aligned box around atoms.
+
+    Parameters
+    ----------
+    positions : (n, 3) array_like, bohr
+    spacing : float
+        Grid step (bohr), the same along x, y and z.
+    margin : float
+        Distance (bohr) from the outermost atoms to the box faces (at least).
+
+    Returns
+    -------
+    origin : (3,) ndarray
+    axes : (3, 3) ndarray
+    shape : tuple of int
+    """
+    if not spacing > 0 or not math.isfinite(spacing):
+        raise ValueError(f"spacing must be a positive number of bohr, got {spacing!r}")
+    if not margin >= 0 or not math.isfinite(margin):
+        raise ValueError(f"margin must be >= 0 bohr, got {margin!r}")
+    pos = np.asarray(positions, dtype=np.float64).reshape(-1, 3)
+    lo = pos.min(axis=0) - margin
+    hi = pos.max(axis=0) + margin
+    shape = np.ceil((hi - lo) / spacing - 1e-9).astype(int) + 1
+    # centre the box on the atoms so the layout does not depend on rounding
+    origin = 0.5 * (lo + hi) - 0.5 * (shape - 1) * spacing
+    return origin, np.eye(3) * spacing, tuple(int(s) for s in shape)
+
+
+def sample_field(field, origin, axes, shape, *, chunk: int = 262144) -> np.ndarray:
+    """Values of a field on the points of a regular grid, computed in chunks.
+
+    Parameters
+    ----------
+    field : Field
+    origin : (3,) array_like, bohr
+    axes : (3, 3) array_like, bohr
+    shape : tuple of 3 int
+    chunk : int
+        Points per call to ``field.evaluate`` (bounds memory).
+
+    Returns
+    -------
+    (nx, ny, nz) ndarray
+    """
+    origin = np.asarray(origin, dtype=np.float64)
+    axes = np.asarray(axes, dtype=np.float64)
+    nx, ny, nz = shape
+    out = np.empty(nx * ny * nz)
+    # the (j, k) plane is reused for every i
+    j, k = np.meshgrid(np.arange(ny), np.arange(nz), indexing="ij")
+    plane = j.reshape(-1, 1) * axes[1] + k.reshape(-1, 1) * axes[2]
+    per = ny * nz
+    rows = max(1, chunk // per)
+    for i0 in range(0, nx, rows):
+        i1 = min(nx, i0 + rows)
+        ii = np.arange(i0, i1)
+        pts = (origin + ii[:, None, None] * axes[0] + plane[None, :, :]).reshape(-1, 3)
+        out[i0 * per: i1 * per] = field.evaluate(pts, order=0)[0]
+    return out.reshape(nx, ny, nz)
+
+
+def promolecule_grid(numbers, positions, *, spacing: float = 0.15, margin: float = 4.0,
+                     source: str | None = None) -> DensityGrid:
+    """Sample the promolecular density on a box around the atoms.
+
+    Parameters
+    ----------
+    numbers : (n,) array_like of int
+    positions : (n, 3) array_like, bohr
+    spacing : float
+        Grid step (bohr).
+    margin : float
+        Space (bohr) between the atoms and the box faces.
+    source : str, optional
+        Recorded as the grid's source.
+
+    Returns
+    -------
+    DensityGrid
+        Its first comment line is :data:`MODEL_LABEL`.
+    """
+    model = Promolecule(numbers, positions)
+    origin, axes, shape = grid_box(model.positions, spacing=spacing, margin=margin)
+    values = sample_field(model, origin, axes, shape)
+    return DensityGrid(values, origin, axes, model.numbers, model.numbers.astype(float),
+                       model.positions, source=source,
+                       comments=(MODEL_LABEL, f"trackscan promolecule, spacing {spacing:g} bohr"))
