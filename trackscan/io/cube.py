@@ -1,0 +1,408 @@
+"""Read and write the cube volumetric format that quantum-chemistry codes write.
+
+Layout (common practice; see the format notes by P. Bourke, 2003, and the
+cube writer of PySCF, ``pyscf/tools/cubegen.py``):
+
+1. two free-text comment lines;
+2. atom count and origin (optionally a fifth number: values per point);
+3. three axis lines: point count and step vector (a positive count means
+   bohr, a negative one angstrom);
+4. one line per atom: Z, nuclear charge, x, y, z;
+5. only when the atom count is negative: a line ``m id_1 ... id_m`` naming
+   the m datasets stored per point (orbitals, for instance);
+6. the values, the last grid axis varying fastest (and, with several
+   datasets, the dataset index fastest of all).
+
+Files ending in ``.gz``, ``.bz2`` or ``.xz`` are decompressed transparently.
+Everything is returned in bohr.  When the axis counts are negative, the
+origin, steps and atom positions are all taken to be in angstrom (the file is
+then in angstrom throughout) and converted.
+"""
+
+from __future__ import annotations
+
+import bz2
+import gzip
+import lzma
+import os
+import warnings
+from pathlib import Path
+
+import numpy as np
+
+from trackscan.errors import InputError, ParseError
+from trackscan.grid import DensityGrid
+from trackscan.io.atomic import atomic_open
+from trackscan.units import ANGSTROM_IN_BOHR
+
+__all__ = ["read_cube", "write_cube", "parse_cube_header", "CubeHeader",
+           "DEFAULT_MAX_POINTS"]
+
+DEFAULT_MAX_POINTS = 512 ** 3
+"""Largest grid (points times datasets) a cube may claim before it is refused unread."""
+
+_OPENERS = {".gz": gzip.open, ".bz2": bz2.open, ".xz": lzma.open}
+
+
+class CubeHeader:
+    """What the header of a cube file says (all lengths in bohr).
+
+    Attributes
+    ----------
+    comments : tuple of str
+        The two comment lines.
+    origin : (3,) float64 array
+    counts : (3,) int array
+        Points along each axis (absolute values).
+    axes : (3, 3) float64 array
+        Step vectors as rows.
+    numbers : (n,) int array
+    charges : (n,) float64 array
+    positions : (n, 3) float64 array
+    dataset_ids : list of int
+        Identifiers of the datasets stored per point (``[]`` for one
+        unnamed dataset).
+    n_values_per_point : int
+    angstrom : bool
+        True when the file gave its lengths in angstrom.
+    header_lines : int
+        Number of lines before the values start.
+    """
+
+    __slots__ = ("comments", "origin", "counts", "axes", "numbers", "charges",
+                 "positions", "dataset_ids", "n_values_per_point", "angstrom",
+                 "header_lines")
+
+    def __init__(self, **kw):
+        for k in self.__slots__:
+            setattr(self, k, kw[k])
+
+    @property
+    def n_points(self) -> int:
+        """Number of grid points."""
+        return int(np.prod(self.counts, dtype=np.int64))
+
+
+def _numbers(line: str, lineno: int, path, what: str, n_min: int, n_max: int,
+             integer_first: bool = False):
+    parts = line.split()
+    if not (n_min <= len(parts) <= n_max):
+        want = str(n_min) if n_min == n_max else f"{n_min} to {n_max}"
+        raise ParseError(f"expected {want} numbers ({what}), got {len(parts)}: {line.strip()[:60]!r}",
+                         path, lineno)
+    out = []
+    for i, p in enumerate(parts):
+        try:
+            if integer_first and i == 0:
+                out.append(int(p))
+            else:
+                v = float(p.replace("D", "E").replace("d", "e"))
+                if not np.isfinite(v):
+                    raise ValueError
+                out.append(v)
+        except ValueError:
+            raise ParseError(f"not a valid number {p!r} ({what})", path, lineno) from None
+    return out
+
+
+def parse_cube_header(lines, *, path=None, max_points: int = DEFAULT_MAX_POINTS) -> CubeHeader:
+    """Parse the header of a cube file from its first lines.
+
+    Parameters
+    ----------
+    lines : sequence of str
+        At least the header lines of the file (more are ignored).
+    path : str, optional
+        File name for error messages.
+    max_points : int
+        Refuse a header claiming more than this many values.
+
+    Returns
+    -------
+    CubeHeader
+
+    Raises
+    ------
+    ParseError
+        On any malformed or implausible header, naming the line.
+    """
+    lines = list(lines)
+
+    def line(i):
+        if i >= len(lines):
+            raise ParseError(f"file ends in the header (line {i + 1} missing)", path, i + 1)
+        return lines[i]
+
+    comments = (line(0).rstrip("\r\n"), line(1).rstrip("\r\n"))
+    head = _numbers(line(2), 3, path, "atom count and origin x y z [values per point]", 4, 5,
+                    integer_first=True)
+    natoms = int(head[0])
+    origin = np.array(head[1:4], dtype=np.float64)
+    nval = 1
+    if len(head) == 5:
+        if float(head[4]) != int(head[4]) or int(head[4]) < 1:
+            raise ParseError(f"values per point must be a positive integer, got {head[4]}", path, 3)
+        nval = int(head[4])
+    if natoms == 0:
+        raise ParseError("the file declares zero atoms", path, 3)
+    if abs(natoms) > 100000:
+        raise ParseError(f"implausible atom count {natoms}", path, 3)
+    counts = np.zeros(3, dtype=np.int64)
+    axes = np.zeros((3, 3))
+    signs = []
+    for a in range(3):
+        vals = _numbers(line(3 + a), 4 + a, path, "point count and step vector x y z", 4, 4,
+                        integer_first=True)
+        n = int(vals[0])
+        if n == 0:
+            raise ParseError(f"axis {a + 1} has zero points", path, 4 + a)
+        signs.append(n < 0)
+        counts[a] = abs(n)
+        axes[a] = vals[1:4]
+    if len(set(signs)) > 1:
+        raise ParseError("axis point counts mix positive (bohr) and negative (angstrom) signs",
+                         path, 4)
+    angstrom = signs[0]
+    if abs(np.linalg.det(axes)) < 1e-14:
+        raise ParseError("the three step vectors are linearly dependent (zero cell volume)", path, 4)
+    total = int(np.prod(counts, dtype=np.int64)) * nval
+    if total > max_points:
+        raise ParseError(f"header claims {'x'.join(map(str, counts))} = {total} values, more than "
+                         f"the ceiling of {max_points} (raise max_points to read it)", path, 4)
+    n = abs(natoms)
+    numbers = np.zeros(n, dtype=np.int64)
+    charges = np.zeros(n)
+    positions = np.zeros((n, 3))
+    for i in range(n):
+        vals = _numbers(line(6 + i), 7 + i, path, "atom: Z charge x y z", 5, 5, integer_first=True)
+        if not 0 <= vals[0] <= 118:
+            raise ParseError(f"atomic number {vals[0]} out of range", path, 7 + i)
+        numbers[i] = vals[0]
+        charges[i] = vals[1]
+        positions[i] = vals[2:5]
+    header_lines = 6 + n
+    dataset_ids: list = []
+    if natoms < 0:
+        if nval != 1:
+            raise ParseError("a negative atom count (dataset ids follow) and a values-per-point "
+                             "count cannot both be given", path, 3)
+        text = line(header_lines)
+        parts = text.split()
+        try:
+            ids = [int(p) for p in parts]
+        except ValueError:
+            raise ParseError(f"expected the dataset id line 'm id_1 ... id_m', got {text.strip()[:60]!r}",
+                             path, header_lines + 1) from None
+        if not ids or ids[0] < 1:
+            raise ParseError("dataset id line must start with a positive count", path, header_lines + 1)
+        m = ids[0]
+        # the ids may continue on following lines when there are many
+        rest = ids[1:]
+        k = header_lines + 1
+        while len(rest) < m:
+            more = line(k).split()
+            try:
+                rest.extend(int(p) for p in more)
+            except ValueError:
+                raise ParseError(f"dataset id line lists {len(rest)} of {m} ids", path, k + 1) from None
+            k += 1
+        if len(rest) != m:
+            raise ParseError(f"dataset id line claims {m} ids but lists {len(rest)}", path,
+                             header_lines + 1)
+        dataset_ids = rest
+        nval = m
+        header_lines = k
+        total = int(np.prod(counts, dtype=np.int64)) * nval
+        if total > max_points:
+            raise ParseError(f"header claims {total} values, more than the ceiling of {max_points}",
+                             path, header_lines)
+    if angstrom:
+        origin = origin * ANGSTROM_IN_BOHR
+        axes = axes * ANGSTROM_IN_BOHR
+        positions = positions * ANGSTROM_IN_BOHR
+    return CubeHeader(comments=comments, origin=origin, counts=counts, axes=axes,
+                      numbers=numbers, charges=charges, positions=positions,
+                      dataset_ids=dataset_ids, n_values_per_point=nval, angstrom=angstrom,
+                      header_lines=header_lines)
+
+
+def _read_bytes(path: Path) -> bytes:
+    if not path.exists():
+        raise InputError("no such file", path)
+    if path.is_dir():
+        raise InputError("is a directory, not a cube file", path)
+    opener = _OPENERS.get(path.suffix.lower(), open)
+    try:
+        with opener(path, "rb") as fh:
+            return fh.read()
+    except PermissionError:
+        raise InputError("permission denied (cannot read the file)", path) from None
+    except (OSError, EOFError, lzma.LZMAError) as exc:
+        raise InputError(f"cannot read the file ({exc})", path) from None
+
+
+def _locate_bad_value(body: bytes, first_line: int, path):
+    """Find the first token of the value block that is not a finite number."""
+    for offset, raw in enumerate(body.split(b"\n")):
+        for tok in raw.split():
+            try:
+                v = float(tok)
+            except ValueError:
+                shown = tok.decode("utf-8", "replace")[:30]
+                raise ParseError(f"not a number in the values: {shown!r}", path,
+                                 first_line + offset) from None
+            if not np.isfinite(v):
+                raise ParseError(f"non-finite value {tok.decode()!r} in the density values", path,
+                                 first_line + offset)
+
+
+def read_cube(path, *, dataset: int = 0, max_points: int = DEFAULT_MAX_POINTS) -> DensityGrid:
+    """Read a cube file into a :class:`~trackscan.grid.DensityGrid` (bohr).
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The file; ``.gz``, ``.bz2`` and ``.xz`` are decompressed.
+    dataset : int
+        Which dataset to return when the file stores several per point
+        (0-based index into the dataset id line).
+    max_points : int
+        Refuse, before allocating, a header claiming more values than this.
+
+    Returns
+    -------
+    DensityGrid
+
+    Raises
+    ------
+    InputError
+        Missing, unreadable or compressed-but-broken file.
+    ParseError
+        Malformed header, too few or too many values, a value that is not
+        a finite number.  The message names the file and, where there is
+        one, the line.
+
+    Examples
+    --------
+    >>> import numpy as np, tempfile, os
+    >>> from trackscan.grid import DensityGrid
+    >>> g = DensityGrid(np.arange(8.0).reshape(2, 2, 2), [0, 0, 0], np.eye(3) * 0.2,
+    ...                 [1], [1.0], [[0.1, 0.1, 0.1]])
+    >>> fn = os.path.join(tempfile.mkdtemp(), "t.cube")
+    >>> write_cube(fn, g)
+    >>> read_cube(fn).values[1, 1, 1]
+    7.0
+    """
+    path = Path(path)
+    data = _read_bytes(path)
+    if not data.strip():
+        raise ParseError("empty file", path)
+    # header: split only as many lines as needed
+    head_chunk = data[:200000]
+    try:
+        head_text = head_chunk.decode("ascii")
+    except UnicodeDecodeError:
+        head_text = head_chunk.decode("latin-1")
+    head_lines = head_text.split("\n")
+    header = parse_cube_header(head_lines, path=path, max_points=max_points)
+    if header.dataset_ids or header.n_values_per_point > 1:
+        nval = header.n_values_per_point
+        if not 0 <= dataset < nval:
+            ids = header.dataset_ids or list(range(1, nval + 1))
+            raise InputError(f"dataset index {dataset} out of range: the file holds {nval} datasets "
+                             f"(ids {ids}); choose 0 to {nval - 1}", path)
+    elif dataset != 0:
+        raise InputError(f"dataset index {dataset} requested but the file holds one dataset", path)
+    # offset of the value block
+    offset = 0
+    for _ in range(header.header_lines):
+        nl = data.find(b"\n", offset)
+        if nl < 0:
+            raise ParseError("file ends in the header", path, header.header_lines)
+        offset = nl + 1
+    body = data[offset:]
+    expected = header.n_points * header.n_values_per_point
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        values = np.fromstring(body, dtype=np.float64, sep=" ")
+    first_line = header.header_lines + 1
+    if values.size != expected:
+        if values.size < expected:
+            # either truncated or a token stopped the parser: find out which
+            _locate_bad_value(body, first_line, path)
+            n_lines = body.count(b"\n") + (0 if body.endswith(b"\n") else 1)
+            raise ParseError(f"truncated: expected {expected} values for a "
+                             f"{'x'.join(map(str, header.counts))} grid, found {values.size}",
+                             path, header.header_lines + n_lines)
+        raise ParseError(f"too many values: expected {expected} for a "
+                         f"{'x'.join(map(str, header.counts))} grid, found {values.size}", path)
+    if not np.isfinite(values).all():
+        _locate_bad_value(body, first_line, path)
+        raise ParseError("non-finite value in the density values", path)
+    nval = header.n_values_per_point
+    if nval > 1:
+        values = values.reshape(-1, nval)[:, dataset]
+    values = values.reshape(tuple(int(c) for c in header.counts))
+    return DensityGrid(values, header.origin, header.axes, header.numbers, header.charges,
+                       header.positions, source=os.fspath(path), comments=header.comments)
+
+
+def _format_block(values: np.ndarray, fmt: str, per_line: int = 6) -> str:
+    """Format a 1-D array as lines of `per_line` values."""
+    n = values.size
+    full, rest = divmod(n, per_line)
+    out = []
+    if full:
+        line_fmt = (fmt * per_line) + "\n"
+        out.append((line_fmt * full) % tuple(values[: full * per_line].tolist()))
+    if rest:
+        out.append(((fmt * rest) + "\n") % tuple(values[full * per_line:].tolist()))
+    return "".join(out)
+
+
+def write_cube(path, grid: DensityGrid, *, comments=None, digits: int = 5) -> None:
+    """Write a grid as a cube file (bohr), atomically.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Destination; ``.gz``, ``.bz2`` or ``.xz`` compress.
+    grid : DensityGrid
+    comments : tuple of two str, optional
+        Comment lines (default: the grid's own).
+    digits : int
+        Digits after the decimal point of each value (``%.{digits}E``).
+        The customary 5 keeps 6 significant digits; use 16 for an exact
+        round trip.
+
+    Notes
+    -----
+    Values are written six per line with a line break after each run of the
+    last axis, as quantum-chemistry codes do.
+    """
+    path = Path(path)
+    c1, c2 = comments if comments is not None else (tuple(grid.comments) + ("", ""))[:2]
+    lines = [c1.replace("\n", " "), c2.replace("\n", " ")]
+    lines.append(f"{grid.n_atoms:5d} {grid.origin[0]:13.6f} {grid.origin[1]:13.6f} "
+                 f"{grid.origin[2]:13.6f}")
+    for n, ax in zip(grid.shape, grid.axes):
+        lines.append(f"{n:5d} {ax[0]:13.8f} {ax[1]:13.8f} {ax[2]:13.8f}")
+    for z, q, p in zip(grid.numbers, grid.charges, grid.positions):
+        lines.append(f"{int(z):5d} {q:13.6f} {p[0]:13.8f} {p[1]:13.8f} {p[2]:13.8f}")
+    header = "\n".join(lines) + "\n"
+    width = digits + 8
+    fmt = f" %{width}.{digits}E"
+    nx, ny, nz = grid.shape
+    rows = grid.values.reshape(nx * ny, nz)
+    if nz % 6 == 0:
+        body = _format_block(rows.ravel(), fmt)
+    else:
+        body = "".join(_format_block(row, fmt) for row in rows)
+    text = header + body
+    opener = _OPENERS.get(path.suffix.lower())
+    with atomic_open(path, "wb") as fh:
+        if opener is None:
+            fh.write(text.encode("ascii"))
+        else:
+            with opener(fh, "wb") as zfh:
+                zfh.write(text.encode("ascii"))
