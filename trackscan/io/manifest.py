@@ -1,0 +1,477 @@
+"""Scan manifests: the YAML file that describes one scan.
+
+Shape (every key but ``name``, ``coordinate`` and ``frames`` is optional)::
+
+    name: cyclobutene-opening          # used for the report folder
+    description: free text
+    coordinate:
+      label: C1-C2 distance
+      unit: angstrom                   # angstrom | bohr | degree | any text
+      distance: [1, 2]                 # or angle: [i, j, k] / dihedral: [i, j, k, l]
+                                       # (1-based atoms; measured on each frame)
+    frames:                            # a list ...
+      - {file: frames/f00.cube, value: 1.50, energy: -154.2}
+      - {file: frames/f01.cube.gz}     # value measured from the definition
+    # ... or a pattern:   frames: {glob: "frames/*.cube"}
+    # ... or, with a generator, the values to compute:
+    #     frames: {values: [1.5, 1.6, 1.7], directory: frames}
+    periodic: false
+    analysis: {density_floor: 1.0e-4}  # AnalysisSettings fields
+    generator: {...}                   # see trackscan.generators
+
+Paths resolve relative to the YAML file.  The YAML is read with the safe
+loader only.  Unknown keys and wrong types raise :class:`ConfigError` naming
+the key path (``frames[3].file``) and the line.
+
+Frames that a generator produced (by ``refine`` or ``demo``) are recorded in
+``<directory>/record.json`` beside them, never in the user's YAML; they are
+merged in here.
+"""
+
+from __future__ import annotations
+
+import difflib
+import glob as globmod
+import json
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import yaml
+
+from trackscan.coordinates import COORDINATE_KINDS, measure
+from trackscan.errors import ConfigError, InputError, ParseError
+from trackscan.io.cube import DEFAULT_MAX_POINTS, parse_cube_header
+from trackscan.settings import AnalysisSettings
+from trackscan.units import BOHR_IN_ANGSTROM
+
+__all__ = ["ScanManifest", "Coordinate", "FrameEntry", "load_manifest",
+           "read_frame_record", "RECORD_NAME"]
+
+RECORD_NAME = "record.json"
+"""File name of the record of generated frames, in the frames directory."""
+
+_TOP_KEYS = ("name", "description", "coordinate", "frames", "periodic", "analysis", "generator")
+_COORD_KEYS = ("label", "unit") + tuple(COORDINATE_KINDS)
+_FRAME_KEYS = ("file", "value", "energy")
+_FRAMES_MAP_KEYS = ("glob", "values", "directory")
+
+
+@dataclass(frozen=True)
+class Coordinate:
+    """The scanned coordinate.
+
+    Attributes
+    ----------
+    label : str
+        Shown in reports, e.g. ``"C1-C2 distance"``.
+    unit : str
+        Unit of the frame values (``angstrom``, ``bohr``, ``degree``, ...).
+    kind : {'distance', 'angle', 'dihedral'} or None
+        Measured definition, when given.
+    atoms : tuple of int
+        1-based atoms of the definition.
+    """
+
+    label: str
+    unit: str
+    kind: str | None = None
+    atoms: tuple = ()
+
+    def measure(self, positions) -> float:
+        """Value of the coordinate on a geometry (positions in bohr), in `unit`."""
+        if self.kind is None:
+            raise ValueError("coordinate has no measured definition")
+        v = measure(self.kind, self.atoms, positions)
+        if self.kind == "distance" and self.unit.lower() in ("angstrom", "å", "a", "ang"):
+            return v * BOHR_IN_ANGSTROM
+        return v
+
+    def to_dict(self) -> dict:
+        d = {"label": self.label, "unit": self.unit}
+        if self.kind:
+            d[self.kind] = list(self.atoms)
+        return d
+
+
+@dataclass(frozen=True)
+class FrameEntry:
+    """One frame of a scan.
+
+    Attributes
+    ----------
+    file : Path
+        Cube file (absolute).  May not exist yet when a generator makes it.
+    value : float
+        Coordinate value, in the coordinate's unit.
+    energy : float or None
+        Total energy (hartree), when known.
+    generated : bool
+        True when the frame is to be (or was) produced by the generator.
+    """
+
+    file: Path
+    value: float
+    energy: float | None = None
+    generated: bool = False
+
+
+@dataclass(frozen=True)
+class ScanManifest:
+    """A validated scan manifest.
+
+    Attributes
+    ----------
+    path : Path
+        The YAML file.
+    name : str
+    coordinate : Coordinate
+    frames : tuple of FrameEntry
+        Sorted by coordinate value.
+    periodic : bool
+    analysis : AnalysisSettings
+    generator : object or None
+        Parsed ``generator`` section (see :mod:`trackscan.generators`).
+    generator_raw : dict or None
+        The section as written.
+    frames_directory : Path
+        Where generated frames and their record go.
+    description : str
+    """
+
+    path: Path
+    name: str
+    coordinate: Coordinate
+    frames: tuple
+    periodic: bool = False
+    analysis: AnalysisSettings = field(default_factory=AnalysisSettings)
+    generator: object = None
+    generator_raw: dict | None = None
+    frames_directory: Path | None = None
+    description: str = ""
+
+    @property
+    def base_dir(self) -> Path:
+        """Folder of the YAML file; relative paths resolve against it."""
+        return self.path.parent
+
+
+# -- YAML with line numbers ------------------------------------------------
+
+def _compose(text: str, path):
+    try:
+        node = yaml.compose(text, Loader=yaml.SafeLoader)
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        lineno = mark.line + 1 if mark is not None else None
+        problem = getattr(exc, "problem", None) or str(exc).splitlines()[0]
+        raise ParseError(f"bad YAML: {problem}", path, lineno) from None
+    return node
+
+
+def _to_python(node, lines: dict, keypath: str):
+    """Construct Python data from a YAML node, recording each key path's line."""
+    lines[keypath] = node.start_mark.line + 1
+    if isinstance(node, yaml.MappingNode):
+        out = {}
+        for knode, vnode in node.value:
+            key = _scalar(knode)
+            sub = f"{keypath}.{key}" if keypath else str(key)
+            if key in out:
+                raise ConfigError("duplicate key", None, sub, knode.start_mark.line + 1)
+            out[key] = _to_python(vnode, lines, sub)
+        return out
+    if isinstance(node, yaml.SequenceNode):
+        return [_to_python(v, lines, f"{keypath}[{i}]") for i, v in enumerate(node.value)]
+    return _scalar(node)
+
+
+def _scalar(node):
+    loader = yaml.SafeLoader("")
+    try:
+        return loader.construct_object(node, deep=True)
+    finally:
+        loader.dispose()
+
+
+class _Checker:
+    """Type checks that name the key path and line."""
+
+    def __init__(self, path, lines):
+        self.path = path
+        self.lines = lines
+
+    def fail(self, key, message):
+        raise ConfigError(message, self.path, key, self.lines.get(key))
+
+    def mapping(self, value, key, allowed):
+        if not isinstance(value, dict):
+            self.fail(key, f"expected a mapping, got {type(value).__name__}")
+        for k in value:
+            if k not in allowed:
+                close = difflib.get_close_matches(str(k), allowed, n=1)
+                hint = f" (did you mean {close[0]!r}?)" if close else ""
+                sub = f"{key}.{k}" if key else str(k)
+                self.fail(sub, f"unknown key{hint}; allowed: {', '.join(allowed)}")
+        return value
+
+    def string(self, value, key):
+        if not isinstance(value, str) or not value.strip():
+            self.fail(key, f"expected a non-empty string, got {value!r}")
+        return value
+
+    def number(self, value, key):
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+            self.fail(key, f"expected a finite number, got {value!r}")
+        return float(value)
+
+    def boolean(self, value, key):
+        if not isinstance(value, bool):
+            self.fail(key, f"expected true or false, got {value!r}")
+        return value
+
+
+# -- loading ----------------------------------------------------------------
+
+def _read_text(path: Path) -> str:
+    if not path.exists():
+        raise InputError("no such manifest file", path)
+    if path.is_dir():
+        raise InputError("is a directory, not a manifest file", path)
+    try:
+        return path.read_text(encoding="utf-8")
+    except PermissionError:
+        raise InputError("permission denied (cannot read the manifest)", path) from None
+    except UnicodeDecodeError as exc:
+        raise ParseError(f"not UTF-8 text ({exc.reason})", path) from None
+    except OSError as exc:
+        raise InputError(f"cannot read the manifest ({exc.strerror})", path) from None
+
+
+def _coordinate(data, chk: _Checker) -> Coordinate:
+    chk.mapping(data, "coordinate", _COORD_KEYS)
+    kinds = [k for k in COORDINATE_KINDS if k in data]
+    if len(kinds) > 1:
+        chk.fail("coordinate", f"give one measured definition, not {' and '.join(kinds)}")
+    kind = kinds[0] if kinds else None
+    atoms: tuple = ()
+    if kind:
+        raw = data[kind]
+        key = f"coordinate.{kind}"
+        n = COORDINATE_KINDS[kind]
+        if not isinstance(raw, list) or len(raw) != n or not all(
+                isinstance(a, int) and not isinstance(a, bool) and a >= 1 for a in raw):
+            chk.fail(key, f"expected a list of {n} atom numbers (1-based), got {raw!r}")
+        if len(set(raw)) != n:
+            chk.fail(key, f"atoms must be distinct, got {raw!r}")
+        atoms = tuple(raw)
+    default_unit = {"distance": "angstrom", "angle": "degree", "dihedral": "degree"}.get(kind, "")
+    unit = chk.string(data["unit"], "coordinate.unit") if "unit" in data else default_unit
+    if not unit:
+        chk.fail("coordinate.unit", "required when the coordinate has no measured definition")
+    if "label" in data:
+        label = chk.string(data["label"], "coordinate.label")
+    elif kind:
+        label = f"{kind} " + "-".join(str(a) for a in atoms)
+    else:
+        chk.fail("coordinate.label", "required when the coordinate has no measured definition")
+    return Coordinate(label=label, unit=unit, kind=kind, atoms=atoms)
+
+
+def _measured_value(file: Path, coord: Coordinate, chk: _Checker, key: str, max_points: int):
+    if coord.kind is None:
+        chk.fail(f"{key}.value", "no value given and the coordinate has no measured definition "
+                                 "(add coordinate.distance/angle/dihedral or a value per frame)")
+    header = _read_header(file, max_points)
+    natoms = len(header.numbers)
+    if max(coord.atoms) > natoms:
+        chk.fail(f"coordinate.{coord.kind}",
+                 f"atom {max(coord.atoms)} does not exist: {file.name} has {natoms} atoms")
+    return coord.measure(header.positions)
+
+
+def _read_header(file: Path, max_points: int):
+    from trackscan.io.cube import _read_bytes  # shared reader: compression, errors
+    data = _read_bytes(file)
+    text = data[:200000].decode("latin-1")
+    return parse_cube_header(text.split("\n"), path=file, max_points=max_points)
+
+
+def read_frame_record(directory: Path) -> list:
+    """Frames recorded by a generator in ``directory/record.json``.
+
+    Returns
+    -------
+    list of dict
+        Each with ``file`` (relative to `directory`), ``value`` and
+        optionally ``energy``.
+    """
+    rec = Path(directory) / RECORD_NAME
+    if not rec.exists():
+        return []
+    try:
+        data = json.loads(rec.read_text(encoding="utf-8"))
+        frames = data["frames"]
+        assert isinstance(frames, list)
+        for f in frames:
+            assert isinstance(f["file"], str) and isinstance(f["value"], (int, float))
+    except (ValueError, KeyError, TypeError, AssertionError):
+        raise ParseError("broken record of generated frames (expected {\"frames\": "
+                         "[{\"file\", \"value\"}, ...]})", rec) from None
+    return frames
+
+
+def _frames(data, chk: _Checker, base: Path, coord: Coordinate, has_generator: bool,
+            max_points: int):
+    entries = []
+    frames_dir = base / "frames"
+    if isinstance(data, dict):
+        chk.mapping(data, "frames", _FRAMES_MAP_KEYS)
+        if "directory" in data:
+            frames_dir = base / chk.string(data["directory"], "frames.directory")
+        if "glob" in data and "values" in data:
+            chk.fail("frames", "give either glob or values, not both")
+        if "glob" in data:
+            pattern = chk.string(data["glob"], "frames.glob")
+            files = sorted(globmod.glob(str(base / pattern)))
+            files = [f for f in files if Path(f).is_file()]
+            if not files and not has_generator:
+                chk.fail("frames.glob", f"pattern {pattern!r} matches no file in {base}")
+            for f in files:
+                p = Path(f)
+                v = _measured_value(p, coord, chk, "frames.glob", max_points)
+                entries.append(FrameEntry(p, v))
+        elif "values" in data:
+            if not has_generator:
+                chk.fail("frames.values", "values without files need a generator section")
+            vals = data["values"]
+            if not isinstance(vals, list) or not vals:
+                chk.fail("frames.values", f"expected a non-empty list of numbers, got {vals!r}")
+            for i, v in enumerate(vals):
+                v = chk.number(v, f"frames.values[{i}]")
+                entries.append(FrameEntry(frames_dir / generated_frame_name(v), v, generated=True))
+        elif not has_generator:
+            chk.fail("frames", "expected a list of frames, a glob or values")
+    elif isinstance(data, list):
+        if not data and not has_generator:
+            chk.fail("frames", "the scan has no frames")
+        for i, item in enumerate(data):
+            key = f"frames[{i}]"
+            if isinstance(item, str):
+                item = {"file": item}
+            chk.mapping(item, key, _FRAME_KEYS)
+            if "file" not in item:
+                chk.fail(f"{key}.file", "missing (each frame needs a cube file)")
+            file = base / chk.string(item["file"], f"{key}.file")
+            if not file.exists():
+                chk.fail(f"{key}.file", f"frame file not found: {file}")
+            if file.is_dir():
+                chk.fail(f"{key}.file", f"is a directory, not a cube file: {file}")
+            if "value" in item:
+                value = chk.number(item["value"], f"{key}.value")
+            else:
+                value = _measured_value(file, coord, chk, key, max_points)
+            energy = chk.number(item["energy"], f"{key}.energy") if "energy" in item else None
+            entries.append(FrameEntry(file, value, energy))
+    else:
+        chk.fail("frames", f"expected a list of frames, a glob or values, got {type(data).__name__}")
+    # generated frames already on disk
+    known = {e.file.resolve() for e in entries}
+    for rec in read_frame_record(frames_dir):
+        f = (frames_dir / rec["file"]).resolve()
+        if f in known:
+            entries = [FrameEntry(e.file, e.value, rec.get("energy", e.energy), e.generated)
+                       if e.file.resolve() == f else e for e in entries]
+            continue
+        entries.append(FrameEntry(f, float(rec["value"]), rec.get("energy"), generated=True))
+        known.add(f)
+    entries.sort(key=lambda e: (e.value, str(e.file)))
+    for a, b in zip(entries, entries[1:]):
+        if a.value == b.value:
+            raise ConfigError(f"two frames share the coordinate value {a.value:g}: "
+                              f"{a.file.name} and {b.file.name}", chk.path, "frames")
+    return tuple(entries), frames_dir
+
+
+def generated_frame_name(value: float) -> str:
+    """File name of a generated frame at coordinate `value` (stable, sortable)."""
+    return f"frame_{value:+.6f}.cube".replace("+", "p").replace("-", "m")
+
+
+def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
+    """Read and validate a scan manifest.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The YAML file.
+    max_points : int, optional
+        Ceiling on cube sizes when headers are read to measure the
+        coordinate (default: the manifest's ``analysis.max_points``).
+
+    Returns
+    -------
+    ScanManifest
+
+    Raises
+    ------
+    InputError, ParseError, ConfigError
+        Missing file, bad YAML, unknown key, wrong type, missing frame.
+    """
+    path = Path(path).absolute()
+    text = _read_text(path)
+    node = _compose(text, path)
+    if node is None:
+        raise ConfigError("the manifest is empty", path)
+    lines: dict = {}
+    try:
+        data = _to_python(node, lines, "")
+    except ConfigError as exc:
+        raise ConfigError(exc.message, path, exc.key, exc.lineno) from None
+    except yaml.YAMLError as exc:
+        raise ParseError(f"bad YAML: {exc}", path) from None
+    chk = _Checker(path, lines)
+    if not isinstance(data, dict):
+        chk.fail("", "expected a mapping at the top level (name, coordinate, frames, ...)")
+    chk.mapping(data, "", _TOP_KEYS)
+    for required in ("name", "coordinate", "frames"):
+        if required not in data:
+            chk.fail(required, "missing (required)")
+    name = chk.string(data["name"], "name")
+    if "/" in name or "\\" in name or name.startswith("."):
+        chk.fail("name", f"must be usable as a folder name, got {name!r}")
+    description = chk.string(data["description"], "description") if "description" in data else ""
+    coord = _coordinate(data["coordinate"], chk)
+    periodic = chk.boolean(data["periodic"], "periodic") if "periodic" in data else False
+    analysis_raw = data.get("analysis") or {}
+    if not isinstance(analysis_raw, dict):
+        chk.fail("analysis", "expected a mapping of settings")
+    try:
+        settings = AnalysisSettings.from_mapping(analysis_raw, path=path)
+    except ConfigError as exc:
+        raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
+    gen_raw = data.get("generator")
+    generator = None
+    if gen_raw is not None:
+        chk.mapping(gen_raw, "generator", list(gen_raw) if isinstance(gen_raw, dict) else [])
+        generator = _parse_generator(gen_raw, path, lines)
+    ceiling = max_points if max_points is not None else settings.max_points
+    frames, frames_dir = _frames(data["frames"], chk, path.parent, coord, gen_raw is not None,
+                                 ceiling or DEFAULT_MAX_POINTS)
+    return ScanManifest(path=path, name=name, coordinate=coord, frames=frames, periodic=periodic,
+                        analysis=settings, generator=generator, generator_raw=gen_raw,
+                        frames_directory=frames_dir, description=description)
+
+
+def _parse_generator(raw, path, lines):
+    """Validate the ``generator`` section with the generators package."""
+    try:
+        from trackscan.generators.config import parse_generator_config
+    except ImportError:  # generators package not installed in this build
+        return raw
+    try:
+        return parse_generator_config(raw, path=path)
+    except ConfigError as exc:
+        if exc.lineno is None and exc.key in lines:
+            raise ConfigError(exc.message, path, exc.key, lines[exc.key]) from None
+        raise
