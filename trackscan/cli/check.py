@@ -8,11 +8,10 @@ everything is readable, 2 with one line naming the problem otherwise.
 
 from __future__ import annotations
 
-import sys
-
 from trackscan.consistency import check_same_atoms
 from trackscan.io.cube import read_cube
 from trackscan.io.manifest import load_manifest
+from trackscan.progress import TextProgress, report
 
 
 def add_arguments(parser) -> None:
@@ -26,6 +25,7 @@ def run(args) -> int:
           f"coordinate {coord.label} ({coord.unit})")
     seen = []
     missing = 0
+    progress = TextProgress()
     for i, entry in enumerate(manifest.frames):
         if entry.generated and not entry.file.exists():
             missing += 1
@@ -37,8 +37,8 @@ def run(args) -> int:
         shape = "x".join(map(str, grid.shape))
         print(f"  [{i:3d}] {entry.value:12.6g}  {entry.file.name:30s} {shape:>13s}  "
               f"{grid.integral():9.4f} e")
-        print(f"checked {i + 1}/{len(manifest.frames)}", file=sys.stderr, end="\r")
-    print(file=sys.stderr)
+        report(progress, "read frames", i + 1, len(manifest.frames), entry.file.name)
+    progress.close()
     print(f"ok: {len(seen)} frames readable and consistent"
           + (f", {missing} to be generated" if missing else ""))
     return 0

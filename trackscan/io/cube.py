@@ -163,7 +163,9 @@ def parse_cube_header(lines, *, path=None, max_points: int = DEFAULT_MAX_POINTS)
         raise ParseError("axis point counts mix positive (bohr) and negative (angstrom) signs",
                          path, 4)
     angstrom = signs[0]
-    if abs(np.linalg.det(axes)) < 1e-14:
+    with np.errstate(all="ignore"):
+        volume = abs(np.linalg.det(axes))
+    if not volume > 1e-14:
         raise ParseError("the three step vectors are linearly dependent (zero cell volume)", path, 4)
     total = int(np.prod(counts, dtype=np.int64)) * nval
     if total > max_points:
@@ -322,10 +324,14 @@ def read_cube(path, *, dataset: int = 0, max_points: int = DEFAULT_MAX_POINTS) -
         offset = nl + 1
     body = data[offset:]
     expected = header.n_points * header.n_values_per_point
+    first_line = header.header_lines + 1
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        values = np.fromstring(body, dtype=np.float64, sep=" ")
-    first_line = header.header_lines + 1
+        try:
+            values = np.fromstring(body, dtype=np.float64, sep=" ")
+        except ValueError:  # numpy >= 2.3 refuses unparsable text outright
+            _locate_bad_value(body, first_line, path)
+            raise ParseError("unparsable text in the values", path) from None
     if values.size != expected:
         if values.size < expected:
             # either truncated or a token stopped the parser: find out which

@@ -172,6 +172,10 @@ def _compose(text: str, path):
 def _to_python(node, lines: dict, keypath: str):
     """Construct Python data from a YAML node, recording each key path's line."""
     lines[keypath] = node.start_mark.line + 1
+    default_tags = {yaml.MappingNode: "tag:yaml.org,2002:map", yaml.SequenceNode: "tag:yaml.org,2002:seq"}
+    if type(node) in default_tags and node.tag != default_tags[type(node)]:
+        raise ConfigError(f"unsupported YAML tag {node.tag!r}", None, keypath or None,
+                          node.start_mark.line + 1)
     if isinstance(node, yaml.MappingNode):
         out = {}
         for knode, vnode in node.value:
@@ -190,6 +194,9 @@ def _scalar(node):
     loader = yaml.SafeLoader("")
     try:
         return loader.construct_object(node, deep=True)
+    except yaml.constructor.ConstructorError as exc:
+        raise ConfigError(f"unsupported YAML value ({exc.problem})", None, None,
+                          node.start_mark.line + 1) from None
     finally:
         loader.dispose()
 
@@ -202,7 +209,15 @@ class _Checker:
         self.lines = lines
 
     def fail(self, key, message):
-        raise ConfigError(message, self.path, key, self.lines.get(key))
+        raise ConfigError(message, self.path, key, self.line_of(key))
+
+    def line_of(self, key):
+        """Line of `key`, or of its closest parent when the key is missing."""
+        while key:
+            if key in self.lines:
+                return self.lines[key]
+            key = key.rsplit(".", 1)[0] if "." in key else (key.rsplit("[", 1)[0] if "[" in key else "")
+        return self.lines.get("", 1)
 
     def mapping(self, value, key, allowed):
         if not isinstance(value, dict):
