@@ -1,0 +1,141 @@
+"""Follow critical points through a scan: the entry point :func:`track_scan`."""
+
+from __future__ import annotations
+
+import copy
+import logging
+
+import numpy as np
+
+from trackscan.errors import ConsistencyError, InputError
+from trackscan.tracking.align import apply_transform, chain_alignments
+from trackscan.tracking.changes import find_changes
+from trackscan.tracking.early import bond_series, early_warnings
+from trackscan.tracking.frames import check_same_atoms, view_frame
+from trackscan.tracking.matching import assign_tracks, match_step
+from trackscan.tracking.resolution import interpolation_floor
+from trackscan.tracking.settings import TrackingSettings
+from trackscan.tracking.structures import (end_label, frame_graph, number_structures,
+                                           sort_ends, structure_key)
+
+__all__ = ["track_scan"]
+
+logger = logging.getLogger(__name__)
+
+
+def _direction(values, setting):
+    if setting != "auto":
+        return setting
+    if len(values) > 1 and all(x > y for x, y in zip(values, values[1:])):
+        return "descending"
+    return "ascending"
+
+
+def track_scan(frames, *, settings=None, coordinate="coordinate"):
+    """Follow the critical points of a scan and find its structural changes.
+
+    Parameters
+    ----------
+    frames : sequence of dict
+        Frame dicts per the contract (DEVELOPERS.md "Internal contracts"), in
+        any order; they are sorted by their ``value``.
+    settings : TrackingSettings, optional
+        Defaults: ``TrackingSettings()``.
+    coordinate : str
+        Name of the scan coordinate, used in messages.
+
+    Returns
+    -------
+    dict
+        ``frames``: copies of the frames in scan order, with ``index``
+        (position in scan order), ``structure`` (number), a ``track`` on every
+        critical point and a ``resolution`` summary; ``changes`` per the
+        contract plus ``structures``, ``structure_type_changed`` and
+        ``resolution``; ``early_warnings``; ``bond_tracks`` (indicator series
+        per bond track); ``structures`` (one entry per structure number);
+        ``direction`` and ``tracking`` (the settings used).
+
+    Raises
+    ------
+    InputError
+        No frames, or a frame dict lacks what tracking needs.
+    ConsistencyError
+        Frames list different atoms, or two frames share a coordinate value.
+
+    Notes
+    -----
+    Steps: sort the frames; align each on the previous one by the Kabsch
+    rotation of its nuclei; match the critical points of each kind between
+    neighbours by optimal assignment under a distance gate; give each point
+    a persistent track; number the structures; for each step between
+    different structures, pair births and deaths into folds, find switched
+    bond paths (conflicts), and judge noise and resolution.
+    """
+    settings = settings or TrackingSettings()
+    frames = list(frames)
+    if not frames:
+        raise InputError("no frames to track")
+    views = [view_frame(f, i) for i, f in enumerate(frames)]
+    check_same_atoms(views)
+    values = [v.value for v in views]
+    if len(set(values)) != len(values):
+        dup = sorted(x for x in set(values) if values.count(x) > 1)
+        raise ConsistencyError(f"two frames share the coordinate value {dup[0]:g}")
+    direction = _direction(values, settings.direction)
+    sign = -1 if direction == "descending" else 1
+    order = sorted(range(len(views)), key=lambda i: sign * views[i].value)
+    views = [views[i] for i in order]
+    transforms = chain_alignments([v.positions for v in views])
+    aligned = []
+    for v, t in zip(views, transforms):
+        pos = {cp.id: apply_transform(cp.position, t) for cp in v.cps}
+        pos["__nuclei__"] = apply_transform(v.positions, t)
+        aligned.append(pos)
+    matches = [match_step(views[k], views[k + 1], aligned[k], aligned[k + 1], settings=settings)
+               for k in range(len(views) - 1)]
+    tracks = assign_tracks(views, matches)
+    keys = [structure_key(v, t) for v, t in zip(views, tracks)]
+    graphs = [frame_graph(v, t) for v, t in zip(views, tracks)]
+    structures = number_structures(keys)
+    changes, _ = find_changes(views, tracks, matches, aligned, keys, graphs, structures,
+                              settings=settings)
+    logger.info("tracked %d frames: %d structures, %d changes", len(views),
+                max(structures), len(changes))
+
+    def ends_of(k, cp):
+        return sort_ends([end_label(e, tracks[k]) for e in views[k].bond_ends.get(cp.id, ())])
+
+    series = bond_series(views, tracks, ends_of)
+    warnings = early_warnings(series, changes, horizon=settings.warning_horizon, sign=sign,
+                              coordinate=coordinate)
+    out_frames = []
+    for k, v in enumerate(views):
+        f = copy.deepcopy(frames[v.listed])
+        f["index"] = k
+        f["structure"] = structures[k]
+        for cp in f.get("critical_points") or []:
+            cp["track"] = tracks[k][str(cp["id"])]
+        f["resolution"] = {"spacing_bohr": v.spacing,
+                           "interpolation_floor": interpolation_floor(v.spacing),
+                           "printed_digits": v.significant_digits or settings.printed_digits}
+        out_frames.append(f)
+    return {
+        "frames": out_frames,
+        "changes": changes,
+        "early_warnings": warnings,
+        "bond_tracks": series,
+        "structures": _structure_table(keys, structures),
+        "direction": direction,
+        "tracking": settings.to_dict(),
+    }
+
+
+def _structure_table(keys, numbers):
+    table = {}
+    for k, (key, n) in enumerate(zip(keys, numbers)):
+        entry = table.setdefault(n, {"number": n, "frames": [],
+                                     "bond_paths": [list(e) for e in key[0]],
+                                     "non_nuclear": list(key[1]), "rings": key[2],
+                                     "cages": key[3]})
+        entry["frames"].append(k)
+    return [table[n] for n in sorted(table)]
