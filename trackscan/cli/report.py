@@ -1,0 +1,33 @@
+"""Write the change-point report of an analysed scan.
+
+Reads DIR/scan.json (or the given scan.json) and writes report.html (one
+self-contained page), report.md with its PNG figures, changes.csv and
+critical_points.csv into the report folder (default: the folder of scan.json).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+
+def add_arguments(parser) -> None:
+    """Arguments of ``trackscan report``."""
+    parser.add_argument("scan", metavar="DIR|scan.json",
+                        help="folder holding scan.json, or the scan.json file")
+    parser.add_argument("--out", metavar="DIR", default=None,
+                        help="report folder (default: the folder of scan.json)")
+    parser.add_argument("--no-date", action="store_true",
+                        help="leave the date out of the report (byte-identical reruns)")
+
+
+def run(args) -> int:
+    """Write the report; prints the path of report.html."""
+    from trackscan.report import write_report
+
+    src = Path(args.scan)
+    out = Path(args.out) if args.out else (src if src.is_dir() else src.parent)
+    files = write_report(src, out, date=None if args.no_date else "today")
+    print(f"report: {files.html}")
+    print(f"        {files.markdown} ({len(files.images)} figures), {files.changes_csv.name}, "
+          f"{files.critical_points_csv.name}")
+    return 0

@@ -1,0 +1,141 @@
+"""Assemble the report document from a scan result.
+
+The same :class:`~trackscan.report.document.Document` is rendered to HTML and
+Markdown, so both carry the same header, tables, figures and cautions.
+"""
+
+from __future__ import annotations
+
+import logging
+
+from trackscan import __version__
+from trackscan.report import density_map, graphs, plots, tables
+from trackscan.report.document import BulletList, Document, Paragraph, Section, Table
+from trackscan.report.scan_data import ScanData
+from trackscan.report.wording import change_words, describe_value
+
+__all__ = ["build_document", "CAUTIONS"]
+
+logger = logging.getLogger(__name__)
+
+#: The cautions of the trade, stated in every report.
+CAUTIONS = (
+    "The topology of the density depends on the method and the basis set: another "
+    "functional or basis can move a change point, or remove or add one. Check the changes "
+    "that matter with a second level of theory.",
+    "A closed-shell density along a bond-breaking scan may belong to an unstable "
+    "wavefunction (a restricted solution that is not the lowest one). Check the stability "
+    "of the wavefunction in the quantum-chemistry code for frames past the change.",
+    "Grid spacing and the printed precision of the cube files limit how close to a "
+    "catastrophe a grid can see: near a fold the two coalescing CPs differ in density by "
+    "a quantity that falls as the cube of their distance. The limit of each change is "
+    "given below.",
+)
+
+
+def _header_table(scan: ScanData, date) -> Table:
+    coord = scan.coordinate_label + (f" ({scan.unit_symbol})" if scan.unit_symbol else "")
+    source = scan.scan.get("density_source")
+    rows = [("Scan", scan.name), ("Coordinate", coord),
+            ("Density source", describe_value(source) if source else "not recorded"),
+            ("Frames", str(len(scan.frames))), ("Changes", str(len(scan.changes))),
+            ("trackscan version", __version__)]
+    if scan.data.get("schema"):
+        rows.append(("Result schema", str(scan.data["schema"])))
+    if date:
+        rows.append(("Report date", str(date)))
+    return Table("header", ("Field", "Value"), tuple(rows), "")
+
+
+def _progress(progress, message):
+    if progress is not None:
+        progress(message)
+
+
+def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
+    """Build the report document.
+
+    Parameters
+    ----------
+    scan : ScanData
+    date : str, optional
+        Date shown in the header (None: no date).
+    progress : callable, optional
+        Called with a short message before each figure.
+
+    Returns
+    -------
+    Document
+    """
+    doc = Document(f"Structural changes along the scan “{scan.name}”")
+    blocks = [_header_table(scan, date)]
+    settings = tables.settings_table(scan)
+    if settings is not None:
+        blocks.append(settings)
+    doc.sections.append(Section("header", "Scan", tuple(blocks)))
+
+    blocks = []
+    if scan.changes:
+        blocks.append(tables.summary_table(scan))
+    else:
+        blocks.append(Paragraph(
+            "No structural change was found between the frames of this scan: every frame has "
+            "the same molecular graph (a change between two frames closer than the sampling "
+            "cannot be excluded). See the early warnings below for structures close to a "
+            "change.", note=True))
+    doc.sections.append(Section("summary", "Change points", tuple(blocks)))
+
+    blocks = [Paragraph("Colours from the palette of Okabe & Ito (2008), “Color Universal "
+                        "Design”, safe for the common colour-vision deficiencies; every CP "
+                        "kind also has its own marker shape. Positions in Å, densities and "
+                        "their derivatives in atomic units.")]
+    for name, make in (("CP counts", plots.counts_plot), ("bond CP properties", plots.bond_cp_plot),
+                       ("energy", plots.energy_plot), ("fold distances", plots.fold_distance_plot)):
+        _progress(progress, f"plot: {name}")
+        fig = make(scan)
+        if fig is not None:
+            blocks.append(fig)
+    doc.sections.append(Section("plots", "Along the scan", tuple(blocks)))
+
+    for k, change in enumerate(scan.changes, 1):
+        _progress(progress, f"change {k}: molecular graphs and density map")
+        blocks = [Paragraph(_change_line(scan, change, k))]
+        fig = graphs.graph_figure(scan, change, k)
+        if fig is not None:
+            blocks.append(fig)
+        dmap, note = density_map.density_map_figure(scan, change, k)
+        if dmap is not None:
+            blocks.append(dmap)
+        if note:
+            blocks.append(Paragraph(note, note=True))
+        doc.sections.append(Section(f"change{k}", f"Change {k}", tuple(blocks)))
+
+    warn = tables.warning_table(scan)
+    if warn is not None:
+        doc.sections.append(Section("early_warnings", "Early warnings", (warn,)))
+    elif not scan.changes:
+        doc.sections.append(Section("early_warnings", "Early warnings", (
+            Paragraph("The analysis recorded no early warnings: nothing in this scan suggests "
+                      "a change just outside it."),)))
+
+    blocks = [BulletList(CAUTIONS)]
+    if scan.changes:
+        blocks.append(tables.resolution_table(scan))
+    doc.sections.append(Section("cautions", "Cautions", tuple(blocks)))
+
+    doc.sections.append(Section("frames", "Per-frame results", (tables.frame_table(scan),),
+                                collapsible=True))
+    doc.sections.append(Section("files", "Files", (BulletList((
+        "changes.csv: one row per change (numbers as in scan.json).",
+        "critical_points.csv: one row per critical point per frame, with its persistent "
+        "track id; positions in Å, densities in atomic units.")),)))
+    return doc
+
+
+def _change_line(scan: ScanData, change, k: int) -> str:
+    before, after = scan.change_frames(change)
+    mech = change.get("mechanism") or "unknown"
+    where = ""
+    if before is not None and after is not None:
+        where = f" between frames {before.get('index')} and {after.get('index')}"
+    return f"Change {k}{where} ({mech}): {change_words(change, scan)}."

@@ -1,0 +1,251 @@
+"""Read a scan result (scan.json) for the report, tolerating missing optional keys.
+
+The report only reads results: this module loads the scan.json of the
+contract in ``../shared/DESIGN.md`` section 3 (with the extensions listed in
+``DEVELOPERS.md``), checks the few keys the report cannot do without, and
+offers look-ups the other report modules share (frames by index, atom labels,
+critical points by id and by track).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+from trackscan.elements import symbol
+from trackscan.errors import InputError, ParseError
+
+__all__ = ["ScanData", "load_scan", "CP_KINDS", "atom_label"]
+
+#: Critical-point kinds of the contract, in the order the report lists them.
+CP_KINDS = ("nuclear", "non_nuclear", "bond", "ring", "cage", "degenerate")
+
+
+class ScanFormatError(InputError):
+    """A scan result lacks a key the report needs, or has the wrong type."""
+
+
+def atom_label(atom) -> str:
+    """``"C1"``: element symbol and 1-based number of an atom dict."""
+    element = atom.get("element") or symbol(atom.get("Z", 0))
+    return f"{element}{atom.get('number', '?')}"
+
+
+@dataclass(frozen=True, eq=False)
+class ScanData:
+    """A loaded scan result with look-ups.
+
+    Parameters
+    ----------
+    data : dict
+        The scan.json content (not modified).
+    base_dir : pathlib.Path or None
+        Folder of the scan.json file; relative frame ``source`` paths are
+        resolved against it.  None when the scan came as a dict.
+    """
+
+    data: dict
+    base_dir: Path | None = None
+
+    # -- top-level parts ---------------------------------------------------
+    @property
+    def scan(self) -> dict:
+        """The ``scan`` header (name, coordinate, density source, settings)."""
+        return self.data.get("scan") or {}
+
+    @property
+    def name(self) -> str:
+        """Scan name (``"scan"`` when missing)."""
+        return str(self.scan.get("name") or "scan")
+
+    @property
+    def coordinate_label(self) -> str:
+        """Label of the scanned coordinate."""
+        coord = self.scan.get("coordinate") or {}
+        if isinstance(coord, str):
+            return coord
+        return str(coord.get("label") or "coordinate")
+
+    @property
+    def coordinate_unit(self) -> str:
+        """Unit of the scanned coordinate as written in the scan (may be empty)."""
+        coord = self.scan.get("coordinate") or {}
+        if isinstance(coord, str):
+            return ""
+        return str(coord.get("unit") or "")
+
+    @property
+    def unit_symbol(self) -> str:
+        """Short symbol of the coordinate unit for axes and tables (Å, °, bohr)."""
+        unit = self.coordinate_unit.lower()
+        return {"angstrom": "Å", "ångström": "Å", "a": "Å", "å": "Å",
+                "degree": "°", "degrees": "°", "deg": "°",
+                "bohr": "bohr", "radian": "rad", "rad": "rad"}.get(unit, self.coordinate_unit)
+
+    @property
+    def frames(self) -> list:
+        """Frames sorted by coordinate value (then index)."""
+        frames = list(self.data.get("frames") or [])
+        return sorted(frames, key=lambda f: (_num(f.get("value")), _num(f.get("index"))))
+
+    @property
+    def changes(self) -> list:
+        """Changes in scan order (by the lower end of their bracket)."""
+        changes = list(self.data.get("changes") or [])
+        return sorted(changes, key=lambda c: min(_bracket(c) or (0.0,)))
+
+    @property
+    def early_warnings(self) -> list:
+        """Scan-level early warnings (may be empty)."""
+        warnings = self.data.get("early_warnings") or []
+        return list(warnings) if isinstance(warnings, list) else [warnings]
+
+    # -- look-ups ------------------------------------------------------------
+    def frame(self, index):
+        """The frame whose ``index`` is `index`, or None."""
+        for f in self.data.get("frames") or []:
+            if f.get("index") == index:
+                return f
+        return None
+
+    def change_frames(self, change):
+        """(frame before, frame after) of a change, either may be None.
+
+        Uses ``between`` (frame indices); falls back to the frames whose
+        values equal the bracket ends.
+        """
+        between = change.get("between")
+        if isinstance(between, (list, tuple)) and len(between) == 2:
+            a, b = self.frame(between[0]), self.frame(between[1])
+            if a is not None or b is not None:
+                return a, b
+        bracket = _bracket(change)
+        if bracket is None:
+            return None, None
+        by_value = {f.get("value"): f for f in self.data.get("frames") or []}
+        return by_value.get(bracket[0]), by_value.get(bracket[1])
+
+    def atoms(self, frame=None) -> list:
+        """Atom dicts of `frame` (or of the first frame that lists atoms)."""
+        if frame is not None and frame.get("atoms"):
+            return list(frame["atoms"])
+        for f in self.frames:
+            if f.get("atoms"):
+                return list(f["atoms"])
+        return []
+
+    def label(self, number, frame=None) -> str:
+        """Element+number label of atom `number` (``"atom 3"`` if unknown)."""
+        if number is None:
+            return "(open end)"
+        for atom in self.atoms(frame):
+            if atom.get("number") == number:
+                return atom_label(atom)
+        return f"atom {number}"
+
+    def labels(self, numbers, frame=None, sep: str = "–") -> str:
+        """``"C1–C2"`` for a list of atom numbers."""
+        return sep.join(self.label(n, frame) for n in (numbers or []))
+
+    def source_path(self, frame):
+        """Absolute path of a frame's ``source`` file, or None when it has none."""
+        source = frame.get("source")
+        if not source or not isinstance(source, str):
+            return None
+        path = Path(source)
+        if not path.is_absolute() and self.base_dir is not None:
+            path = self.base_dir / path
+        return path
+
+
+def cp_by_id(frame, cp_id):
+    """The critical point with id `cp_id` in `frame`, or None."""
+    for cp in (frame or {}).get("critical_points") or []:
+        if cp.get("id") == cp_id:
+            return cp
+    return None
+
+
+def _num(x, default=0.0):
+    try:
+        return float(x)
+    except (TypeError, ValueError):
+        return default
+
+
+def _bracket(change):
+    b = change.get("bracket")
+    if isinstance(b, (list, tuple)) and len(b) == 2:
+        try:
+            return float(b[0]), float(b[1])
+        except (TypeError, ValueError):
+            return None
+    return None
+
+
+def load_scan(scan) -> ScanData:
+    """Load a scan result from a path (file or folder) or take a dict.
+
+    Parameters
+    ----------
+    scan : str, os.PathLike or dict
+        Path of a scan.json, a folder containing ``scan.json``, or the
+        already-parsed content.
+
+    Returns
+    -------
+    ScanData
+
+    Raises
+    ------
+    ParseError
+        The file is missing or is not JSON.
+    ScanFormatError
+        The content is not a scan result (no ``frames`` list, wrong types).
+    """
+    base_dir = None
+    if isinstance(scan, dict):
+        data = scan
+    else:
+        path = Path(os.fspath(scan))
+        if path.is_dir():
+            path = path / "scan.json"
+        if not path.is_file():
+            raise ParseError("no such scan result (expected a scan.json file or its folder)", path)
+        try:
+            data = json.loads(path.read_text(encoding="utf-8"))
+        except UnicodeDecodeError as exc:
+            raise ParseError(f"not UTF-8 text: {exc}", path) from None
+        except json.JSONDecodeError as exc:
+            raise ParseError(f"not valid JSON: {exc.msg}", path, exc.lineno) from None
+        base_dir = path.resolve().parent
+    _check(data, None if base_dir is None else base_dir / "scan.json")
+    return ScanData(data, base_dir)
+
+
+def _check(data, path) -> None:
+    if not isinstance(data, dict):
+        raise ScanFormatError("a scan result must be a JSON object", path)
+    frames = data.get("frames")
+    if not isinstance(frames, list):
+        raise ScanFormatError("'frames' must be a list of frame objects", path)
+    for i, frame in enumerate(frames):
+        if not isinstance(frame, dict):
+            raise ScanFormatError(f"frames[{i}] must be an object", path)
+        if not isinstance(frame.get("value"), (int, float)) or isinstance(frame.get("value"), bool):
+            raise ScanFormatError(f"frames[{i}].value must be a number", path)
+        for key in ("critical_points", "bond_paths", "atoms"):
+            if key in frame and not isinstance(frame[key], list):
+                raise ScanFormatError(f"frames[{i}].{key} must be a list", path)
+    changes = data.get("changes", [])
+    if not isinstance(changes, list):
+        raise ScanFormatError("'changes' must be a list", path)
+    for i, change in enumerate(changes):
+        if not isinstance(change, dict):
+            raise ScanFormatError(f"changes[{i}] must be an object", path)
+        if "bracket" in change and _bracket(change) is None:
+            raise ScanFormatError(f"changes[{i}].bracket must be two numbers", path)
+    if "scan" in data and not isinstance(data["scan"], dict):
+        raise ScanFormatError("'scan' must be an object", path)

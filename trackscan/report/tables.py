@@ -1,0 +1,204 @@
+"""Tables of the report: change summary, resolution limits, per-frame table, CSV files.
+
+The display tables (:class:`~trackscan.report.document.Table`) hold strings at
+a stated precision; the CSV files hold the numbers of scan.json unrounded
+(positions converted to Å), one row per change (``changes.csv``) and one row
+per critical point per frame (``critical_points.csv``).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+
+from trackscan.io.atomic import write_text_atomic
+from trackscan.report.document import Table
+from trackscan.report.scan_data import CP_KINDS, ScanData
+from trackscan.report.wording import (change_decimals, change_words, coord_decimals, describe_value, fmt_coord,
+                                      fmt_sig, fmt_uncertainty, uncertainty_of)
+from trackscan.units import BOHR_IN_ANGSTROM
+
+__all__ = ["summary_table", "resolution_table", "frame_table", "warning_table",
+           "settings_table", "change_csv_rows", "critical_point_csv_rows", "write_csv",
+           "CHANGES_CSV_HEADER", "CRITICAL_POINTS_CSV_HEADER"]
+
+CHANGES_CSV_HEADER = ("change", "frame_before", "frame_after", "bracket_low", "bracket_high",
+                      "estimate", "uncertainty", "uncertainty_origin", "estimate_method",
+                      "mechanism", "events", "evaluations", "structure_type_changed",
+                      "resolution", "note")
+
+CRITICAL_POINTS_CSV_HEADER = ("frame", "coordinate", "id", "track", "kind", "rank", "signature",
+                              "x_angstrom", "y_angstrom", "z_angstrom", "rho", "laplacian",
+                              "lambda1", "lambda2", "lambda3", "ellipticity", "atoms")
+
+
+def _unit(scan: ScanData) -> str:
+    return f" ({scan.unit_symbol})" if scan.unit_symbol else ""
+
+
+def summary_table(scan: ScanData) -> Table:
+    """One row per change: bracket, estimate ± uncertainty, mechanism, events, evaluations."""
+    u = _unit(scan)
+    header = ("#", f"Bracket{u}", f"Estimate ± uncertainty{u}", "Estimate method",
+              "Mechanism", "Events", "Evaluations")
+    rows = []
+    for k, change in enumerate(scan.changes, 1):
+        d = change_decimals(change)
+        bracket = change.get("bracket")
+        btxt = (f"{fmt_coord(bracket[0], d)} → {fmt_coord(bracket[1], d)}"
+                if bracket else "—")
+        unc, origin = uncertainty_of(change)
+        est = change.get("estimate")
+        etxt = fmt_coord(est, d)
+        if unc is not None and etxt != "—":
+            etxt += f" ± {fmt_uncertainty(unc)} ({origin})"
+        rows.append((str(k), btxt, etxt, str(change.get("estimate_method") or "—"),
+                     str(change.get("mechanism") or "—"), change_words(change, scan),
+                     describe_value(change.get("evaluations"))))
+    return Table("summary", header, tuple(rows),
+                 "Structural changes along the scan. The bracket runs from the last frame "
+                 "with the old structure to the first frame with the new one.")
+
+
+def resolution_table(scan: ScanData) -> Table:
+    """Per change: what limits how close to the catastrophe the grid can see."""
+    header = ("#", "Resolution limit (from scan.json)", "Structure type changed", "Note")
+    rows = []
+    for k, change in enumerate(scan.changes, 1):
+        res = change.get("resolution")
+        rtxt = describe_value(res) if res not in (None, {}, "") else \
+            "not given by the analysis"
+        stc = change.get("structure_type_changed")
+        rows.append((str(k), rtxt, describe_value(stc) if stc is not None else "—",
+                     str(change.get("note") or "—")))
+    return Table("resolution", header, tuple(rows),
+                 "Grid spacing and printed precision limit how close to a catastrophe "
+                 "a grid can see; the limit of each change as estimated by the analysis.")
+
+
+def _frame_warnings(frame, scan: ScanData) -> list:
+    out = [str(w) for w in frame.get("warnings") or []]
+    if frame.get("complete") is False:
+        out.insert(0, "incomplete: critical-point search did not satisfy Poincaré–Hopf")
+    for k, change in enumerate(scan.changes, 1):
+        if change.get("mechanism") != "unresolved":
+            continue
+        between = change.get("between") or []
+        if frame.get("index") in between:
+            note = change.get("note") or "no note"
+            out.append(f"change {k} unresolved: {note}")
+    return out
+
+
+def frame_table(scan: ScanData) -> Table:
+    """One row per frame: counts, Poincaré–Hopf, energy, warnings."""
+    frames = scan.frames
+    values = [f.get("value") for f in frames]
+    d = coord_decimals(*values)
+    has_energy = any(isinstance(f.get("energy"), (int, float)) for f in frames)
+    header = ["Frame", f"Coordinate{_unit(scan)}", "Structure", "n", "nna", "b", "r", "c",
+              "deg.", "n − b + r − c", "Expected", "Holds"]
+    if has_energy:
+        header.append("Energy (hartree)")
+    header.append("Warnings")
+    rows = []
+    for f in frames:
+        counts = f.get("counts") or {}
+        ph = f.get("poincare_hopf") or {}
+        row = [describe_value(f.get("index")), fmt_coord(f.get("value"), d),
+               describe_value(f.get("structure"))]
+        row += [describe_value(counts.get(k, 0 if counts else None)) for k in CP_KINDS]
+        row += [describe_value(ph.get("value")), describe_value(ph.get("expected")),
+                describe_value(ph.get("holds"))]
+        if has_energy:
+            row.append(fmt_sig(f.get("energy"), 10))
+        row.append("; ".join(_frame_warnings(f, scan)) or "—")
+        rows.append(tuple(row))
+    return Table("frames", tuple(header), tuple(rows),
+                 "Per-frame results: critical points by kind (n nuclear, nna non-nuclear "
+                 "attractors, b bond, r ring, c cage, deg. degenerate) and the "
+                 "Poincaré–Hopf relation.")
+
+
+def warning_table(scan: ScanData):
+    """Early warnings of the scan as a table, or None when there are none."""
+    warnings = scan.early_warnings
+    if not warnings:
+        return None
+    rows = []
+    for w in warnings:
+        if isinstance(w, dict):
+            text = w.get("message") or w.get("note") or w.get("text")
+            rest = {k: v for k, v in w.items() if k not in ("message", "note", "text")}
+            where = describe_value(rest) if rest else "—"
+            rows.append((str(text) if text else describe_value(w), where))
+        else:
+            rows.append((describe_value(w), "—"))
+    return Table("early_warnings", ("Warning", "Details"), tuple(rows),
+                 "Signs that the structure is about to change (whether or not a change "
+                 "happens inside the scan).")
+
+
+def settings_table(scan: ScanData):
+    """Analysis settings as key/value rows, or None when scan.json has none."""
+    settings = scan.scan.get("settings")
+    if not isinstance(settings, dict) or not settings:
+        return None
+    rows = tuple((str(k), describe_value(v, 6)) for k, v in sorted(settings.items()))
+    return Table("settings", ("Setting", "Value"), rows, "Analysis settings.")
+
+
+def _csv_value(x):
+    if x is None:
+        return ""
+    if isinstance(x, bool):
+        return "true" if x else "false"
+    if isinstance(x, float):
+        return repr(x)
+    return str(x)
+
+
+def change_csv_rows(scan: ScanData) -> list:
+    """Rows of changes.csv (numbers as in scan.json)."""
+    rows = []
+    for k, change in enumerate(scan.changes, 1):
+        between = change.get("between") or [None, None]
+        bracket = change.get("bracket") or [None, None]
+        unc, origin = uncertainty_of(change)
+        res = change.get("resolution")
+        rows.append(tuple(_csv_value(v) for v in (
+            k, between[0], between[1], bracket[0], bracket[1], change.get("estimate"),
+            unc, origin, change.get("estimate_method"), change.get("mechanism"),
+            change_words(change, scan), change.get("evaluations"),
+            change.get("structure_type_changed"),
+            None if res is None else json.dumps(res, sort_keys=True, ensure_ascii=False),
+            change.get("note"))))
+    return rows
+
+
+def critical_point_csv_rows(scan: ScanData) -> list:
+    """Rows of critical_points.csv: one per CP per frame, positions in Å."""
+    rows = []
+    for f in scan.frames:
+        for cp in f.get("critical_points") or []:
+            pos = cp.get("position_bohr") or [None] * 3
+            ev = list(cp.get("eigenvalues") or []) + [None] * 3
+            atoms = " ".join(scan.label(a, f) for a in cp.get("atoms") or []) \
+                if cp.get("kind") != "cage" else ""
+            rows.append(tuple(_csv_value(v) for v in (
+                f.get("index"), f.get("value"), cp.get("id"), cp.get("track"), cp.get("kind"),
+                cp.get("rank"), cp.get("signature"),
+                *(None if p is None else p * BOHR_IN_ANGSTROM for p in pos[:3]),
+                cp.get("rho"), cp.get("laplacian"), ev[0], ev[1], ev[2],
+                cp.get("ellipticity"), atoms)))
+    return rows
+
+
+def write_csv(path, header, rows) -> None:
+    """Write a CSV file atomically (comma-separated, minimal quoting, ``\\n`` line ends)."""
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow(header)
+    writer.writerows(rows)
+    write_text_atomic(path, buf.getvalue())

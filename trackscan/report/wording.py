@@ -1,0 +1,178 @@
+"""How the report says things: numbers at a stated precision, events in plain words.
+
+Every table cell of the report is made here or in :mod:`trackscan.report.tables`,
+so the HTML and the Markdown show the same strings.
+"""
+
+from __future__ import annotations
+
+import math
+
+from trackscan.report.scan_data import ScanData, cp_by_id
+
+__all__ = ["fmt_coord", "coord_decimals", "change_decimals", "fmt_sig", "fmt_uncertainty", "event_words",
+           "change_words", "describe_value", "pretty_key", "uncertainty_of"]
+
+_DASH = "–"
+
+
+def coord_decimals(*values, width=None) -> int:
+    """Decimals needed to show coordinate values so a bracket's ends stay distinct.
+
+    Parameters
+    ----------
+    *values : float
+        Values that will be shown together (e.g. bracket ends and estimate).
+    width : float, optional
+        Smallest difference that must remain visible (e.g. bracket width).
+
+    Returns
+    -------
+    int
+        Between 3 and 10: two more than the decade of `width`.
+    """
+    if width is None:
+        finite = sorted(float(v) for v in values if _finite(v))
+        diffs = [b - a for a, b in zip(finite, finite[1:]) if b > a]
+        width = min(diffs) if diffs else None
+    if not width or not _finite(width) or width <= 0:
+        return 4
+    return int(min(10, max(3, math.ceil(-math.log10(width)) + 2)))
+
+
+def change_decimals(change) -> int:
+    """Decimals used for the coordinate values of one change (bracket ends stay distinct)."""
+    bracket = change.get("bracket") or []
+    width = abs(bracket[1] - bracket[0]) if len(bracket) == 2 else None
+    return coord_decimals(*bracket, width=width)
+
+
+def fmt_coord(x, decimals: int = 4) -> str:
+    """A coordinate value with fixed decimals (``"—"`` when missing)."""
+    if not _finite(x):
+        return "—"
+    return f"{float(x):.{decimals}f}"
+
+
+def fmt_sig(x, digits: int = 5) -> str:
+    """A quantity in atomic units with `digits` significant digits (``"—"`` if missing)."""
+    if isinstance(x, bool) or not _finite(x):
+        return "—"
+    if isinstance(x, int):
+        return str(x)
+    return f"{float(x):.{digits}g}"
+
+
+def fmt_uncertainty(u) -> str:
+    """An uncertainty with two significant digits."""
+    if not _finite(u):
+        return "—"
+    return f"{float(u):.2g}"
+
+
+def uncertainty_of(change):
+    """(uncertainty, origin) of a change's estimate, or (None, "").
+
+    The change's own ``uncertainty`` wins (a number, or a dict whose largest
+    numeric entry is taken); otherwise half the bracket width.
+    """
+    u = change.get("uncertainty")
+    if isinstance(u, dict):
+        nums = {k: v for k, v in u.items() if _finite(v)}
+        if nums:
+            key = max(nums, key=lambda k: abs(nums[k]))
+            return abs(float(nums[key])), pretty_key(key)
+    elif _finite(u):
+        return abs(float(u)), "estimated"
+    bracket = change.get("bracket")
+    if isinstance(bracket, (list, tuple)) and len(bracket) == 2 and all(map(_finite, bracket)):
+        return abs(float(bracket[1]) - float(bracket[0])) / 2.0, "half bracket"
+    return None, ""
+
+
+def pretty_key(key) -> str:
+    """``"spacing_bohr"`` -> ``"spacing (bohr)"``."""
+    key = str(key)
+    for suffix, unit in (("_bohr", "bohr"), ("_angstrom", "Å"), ("_au", "a.u."),
+                         ("_hartree", "hartree"), ("_kcal_per_mol", "kcal/mol")):
+        if key.endswith(suffix):
+            return f"{key[: -len(suffix)].replace('_', ' ')} ({unit})"
+    return key.replace("_", " ")
+
+
+def describe_value(value, digits: int = 5) -> str:
+    """A short text for any JSON value (numbers at `digits` significant digits)."""
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, (int, float)):
+        return fmt_sig(value, digits)
+    if value is None:
+        return "—"
+    if isinstance(value, str):
+        return value
+    if isinstance(value, (list, tuple)):
+        return ", ".join(describe_value(v, digits) for v in value)
+    if isinstance(value, dict):
+        return "; ".join(f"{pretty_key(k)}: {describe_value(v, digits)}"
+                         for k, v in sorted(value.items()))
+    return str(value)
+
+
+def event_words(event, change, scan: ScanData) -> str:
+    """One event of a change in plain words, e.g. ``"bond path C1–C2 breaks"``.
+
+    Parameters
+    ----------
+    event : dict
+        An element of the change's ``events``.
+    change : dict
+        The change (its mechanism and other events decide the fold wording).
+    scan : ScanData
+    """
+    before, after = scan.change_frames(change)
+    kind = str(event.get("kind", "event"))
+    mechanism = change.get("mechanism")
+    kinds = {str(e.get("kind")) for e in change.get("events") or []}
+    frame = after if kind.endswith("_formed") else before
+    if kind in ("bond_formed", "bond_broken"):
+        verb = "forms" if kind == "bond_formed" else "breaks"
+        return f"bond path {scan.labels(event.get('atoms'), frame)} {verb}"
+    if kind == "bond_switched":
+        old = scan.labels(event.get("atoms_before") or event.get("atoms"), before)
+        new = scan.labels(event.get("atoms_after"), after)
+        return f"bond path {old} switches to {new}"
+    if kind in ("ring_formed", "ring_lost", "cage_formed", "cage_lost"):
+        what, _, how = kind.partition("_")
+        text = f"{what} CP"
+        cp = cp_by_id(frame, event.get("cp")) if event.get("cp") is not None else None
+        if cp is not None and what == "ring" and cp.get("atoms"):
+            text += f" of ring {scan.labels(cp['atoms'], frame)}"
+        partner = "bond" if what == "ring" else "ring"
+        partner_kinds = ({"bond_broken", "bond_formed"} if what == "ring"
+                         else {"ring_lost", "ring_formed"})
+        if mechanism == "fold" and kinds & partner_kinds:
+            verb = "is born together with" if how == "formed" else "annihilates with"
+            return f"{text} {verb} the {partner} CP (fold)"
+        return f"{text} {'appears' if how == 'formed' else 'disappears'}"
+    if kind in ("attractor_formed", "attractor_lost"):
+        verb = "appears" if kind == "attractor_formed" else "disappears"
+        where = ""
+        if event.get("atoms"):
+            where = f" between {scan.labels(event['atoms'], frame, sep=', ')}"
+        return f"non-nuclear attractor{where} {verb}"
+    extra = f" ({scan.labels(event['atoms'], frame)})" if event.get("atoms") else ""
+    return kind.replace("_", " ") + extra
+
+
+def change_words(change, scan: ScanData) -> str:
+    """All events of a change in plain words, joined by ``"; "``."""
+    events = change.get("events") or []
+    if not events:
+        return "no events recorded"
+    return "; ".join(event_words(e, change, scan) for e in events)
+
+
+def _finite(x) -> bool:
+    if isinstance(x, bool) or not isinstance(x, (int, float)):
+        return False
+    return math.isfinite(x)

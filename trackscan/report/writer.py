@@ -1,0 +1,86 @@
+"""Write the report folder: report.html, report.md and its PNGs, changes.csv, critical_points.csv."""
+
+from __future__ import annotations
+
+import datetime
+import logging
+from dataclasses import dataclass
+from pathlib import Path
+
+from trackscan import __version__
+from trackscan.io.atomic import write_bytes_atomic, write_text_atomic
+from trackscan.report import tables
+from trackscan.report.assemble import build_document
+from trackscan.report.html import render_html
+from trackscan.report.markdown import image_name, render_markdown
+from trackscan.report.scan_data import load_scan
+
+__all__ = ["write_report", "ReportFiles"]
+
+logger = logging.getLogger(__name__)
+
+
+@dataclass(frozen=True)
+class ReportFiles:
+    """Paths written by :func:`write_report`."""
+
+    html: Path
+    markdown: Path
+    changes_csv: Path
+    critical_points_csv: Path
+    images: tuple
+
+
+def write_report(scan, out_dir, *, date="today", progress=None) -> ReportFiles:
+    """Write the change-point report of a scan result.
+
+    Parameters
+    ----------
+    scan : str, os.PathLike or dict
+        A scan.json file, the folder holding it, or its parsed content.
+        Relative frame ``source`` paths are resolved against the file's
+        folder (for a dict: against the current directory).
+    out_dir : str or os.PathLike
+        Report folder (created if missing).  Existing report files in it
+        are replaced; other files are left alone.
+    date : str or None, keyword-only
+        Date shown in the header: ``"today"`` (default, UTC, ISO format),
+        any string, or None for no date (byte-identical reruns).
+    progress : callable, optional, keyword-only
+        Called with a short message at each step.
+
+    Returns
+    -------
+    ReportFiles
+
+    Raises
+    ------
+    trackscan.errors.InputError
+        `scan` is not a readable scan result.
+    """
+    data = load_scan(scan)
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    if date == "today":
+        date = datetime.datetime.now(datetime.timezone.utc).date().isoformat()
+    logger.info("report of scan %r into %s", data.name, out)
+    doc = build_document(data, date=date, progress=progress)
+    footer = (f"Made by trackscan {__version__} from scan.json"
+              + (f" on {date}" if date else "") + ".")
+    if progress is not None:
+        progress("writing files")
+    changes_csv = out / "changes.csv"
+    cps_csv = out / "critical_points.csv"
+    tables.write_csv(changes_csv, tables.CHANGES_CSV_HEADER, tables.change_csv_rows(data))
+    tables.write_csv(cps_csv, tables.CRITICAL_POINTS_CSV_HEADER,
+                     tables.critical_point_csv_rows(data))
+    images = []
+    for fig in doc.figures():
+        path = out / image_name(fig)
+        write_bytes_atomic(path, fig.png)
+        images.append(path)
+    md = out / "report.md"
+    write_text_atomic(md, render_markdown(doc, footer=footer))
+    html = out / "report.html"
+    write_text_atomic(html, render_html(doc, footer=footer))
+    return ReportFiles(html, md, changes_csv, cps_csv, tuple(images))
