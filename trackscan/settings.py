@@ -48,6 +48,15 @@ class AnalysisSettings:
     max_points : int
         Ceiling on the number of grid points a cube may claim before it is
         refused unread.  Default 512**3.
+    nuclear_radius : float
+        Newton iterates entering a sphere of this radius (bohr) around a
+        nucleus are abandoned and a converged point inside one is that
+        nucleus's attractor (the cusp; METHODS.md section 1).  Must stay
+        below the distance from an H nucleus to its bond CP (about 0.35
+        bohr in O-H).  Default 0.2.
+    seed_retries : int
+        How many times to retry with denser seeding when Poincare-Hopf
+        fails (0 to 2).  Default 2.
     """
 
     density_floor: float = 1e-4
@@ -60,6 +69,8 @@ class AnalysisSettings:
     subtract_promolecule: bool = True
     capture_radius: float = 0.1
     max_points: int = 512 ** 3
+    nuclear_radius: float = 0.2
+    seed_retries: int = 2
 
     def __post_init__(self):
         for f in dataclasses.fields(self):

@@ -1,0 +1,198 @@
+"""A promolecule confined to spheres around the nuclei, for spline subtraction.
+
+Interpolating a density with cubic splines fails near nuclei: the cusp and
+the steep core shells ring through the whole neighbourhood.  The remedy
+(../shared/METHODS.md section 1) is to subtract an analytic promolecule on
+the grid, spline only the smooth remainder and add the promolecule's exact
+derivatives back.  Only the part of each free atom near its nucleus needs
+removing, so each atomic density of :class:`trackscan.promolecule.Promolecule`
+is multiplied here by a switching function that is 1 inside ``r_in`` and 0
+beyond ``r_out``; the smooth valence tails stay in the spline.  This makes the
+cost per atom a small sphere instead of the whole grid.
+
+The switch ``s(x) = 1 - (35x^4 - 84x^5 + 70x^6 - 20x^7)`` with
+``x = (r - r_in) / (r_out - r_in)`` has three continuous derivatives at both
+ends (the order-3 "smoothstep" polynomial), so the model keeps a continuous
+Hessian everywhere except at the nuclei themselves.
+"""
+
+from __future__ import annotations
+
+import itertools
+
+import numpy as np
+
+from trackscan.promolecule import Promolecule, atom_terms
+
+__all__ = ["LocalizedPromolecule", "R_INNER", "R_OUTER"]
+
+R_INNER = 1.0
+"""Radius (bohr) inside which each free atom is kept whole (default)."""
+
+R_OUTER = 2.5
+"""Radius (bohr) beyond which each free atom is dropped (default)."""
+
+
+def _switch(r, r_in, r_out):
+    """s, s' and s'' of the switching function at distances r."""
+    w = r_out - r_in
+    x = np.clip((r - r_in) / w, 0.0, 1.0)
+    x2 = x * x
+    s = 1.0 - x2 * x2 * (35.0 - 84.0 * x + 70.0 * x2 - 20.0 * x2 * x)
+    om = 1.0 - x
+    ds = -140.0 * (x2 * x) * (om * om * om) / w
+    dds = -420.0 * x2 * (om * om) * (1.0 - 2.0 * x) / (w * w)
+    return s, ds, dds
+
+
+class LocalizedPromolecule:
+    """Free-atom densities switched off smoothly between `r_in` and `r_out`.
+
+    Implements :class:`trackscan.field.Field`.
+
+    Parameters
+    ----------
+    numbers : (n,) array_like of int
+        Atomic numbers; atoms outside H-Ar (or with ``include`` False) are
+        left out.
+    positions : (n, 3) array_like, bohr
+    r_in, r_out : float, bohr
+        Switching radii, ``0 <= r_in < r_out``.
+    include : (n,) array_like of bool, optional
+        Which atoms to model (e.g. not those with an effective core).
+    cell : (3, 3) array_like, optional
+        Periodic cell vectors (rows); periodic images within `r_out` of the
+        cell are then included.
+
+    Notes
+    -----
+    The free atoms are those of :class:`~trackscan.promolecule.Promolecule`
+    (Clementi & Raimondi 1963 Slater-type orbitals).
+    """
+
+    def __init__(self, numbers, positions, *, r_in: float = R_INNER, r_out: float = R_OUTER,
+                 include=None, cell=None):
+        if not 0 <= r_in < r_out:
+            raise ValueError(f"need 0 <= r_in < r_out, got {r_in}, {r_out}")
+        numbers = np.asarray(numbers, dtype=np.int64).reshape(-1)
+        positions = np.asarray(positions, dtype=np.float64).reshape(-1, 3)
+        keep = np.array([1 <= z <= 18 for z in numbers], dtype=bool)
+        if include is not None:
+            keep &= np.asarray(include, dtype=bool)
+        numbers, positions = numbers[keep], positions[keep]
+        if cell is not None and len(numbers):
+            cell = np.asarray(cell, dtype=np.float64)
+            inv = np.linalg.inv(cell)
+            pad = r_out * np.linalg.norm(inv, axis=0)  # fractional margin per axis
+            imgs_z, imgs_p = [], []
+            for shift in itertools.product((-1, 0, 1), repeat=3):
+                p = positions + np.asarray(shift, dtype=float) @ cell
+                f = p @ inv
+                ok = np.all((f > -pad) & (f < 1 + pad), axis=1)
+                imgs_z.append(numbers[ok])
+                imgs_p.append(p[ok])
+            numbers, positions = np.concatenate(imgs_z), np.concatenate(imgs_p)
+        self.numbers = numbers
+        self.positions = positions
+        self.r_in = float(r_in)
+        self.r_out = float(r_out)
+        self._atoms = [Promolecule([z], [p]) for z, p in zip(numbers, positions)]
+        self.max_value = sum(sum(c for c, m, a in atom_terms(z) if m == 0) for z in numbers)
+
+    def __len__(self):
+        return len(self._atoms)
+
+    def value(self, points):
+        """Values at points, shape (N,)."""
+        return self.evaluate(points, 0)[0]
+
+    def gradient(self, points):
+        """Gradients at points, shape (N, 3)."""
+        return self.evaluate(points, 1)[1]
+
+    def hessian(self, points):
+        """Hessians at points, shape (N, 3, 3)."""
+        return self.evaluate(points, 2)[2]
+
+    def evaluate(self, points, order: int = 2) -> tuple:
+        """Value and derivatives at points; see :class:`trackscan.field.Field`."""
+        pts = np.asarray(points, dtype=np.float64).reshape(-1, 3)
+        n = len(pts)
+        val = np.zeros(n)
+        grad = np.zeros((n, 3)) if order >= 1 else None
+        hess = np.zeros((n, 3, 3)) if order >= 2 else None
+        for atom, pos in zip(self._atoms, self.positions):
+            d = pts - pos
+            r2 = np.einsum("ij,ij->i", d, d)
+            sel = np.nonzero(r2 < self.r_out * self.r_out)[0]
+            if len(sel) == 0:
+                continue
+            self._add(atom, d[sel], np.sqrt(r2[sel]), sel, order, val, grad, hess)
+        return (val, grad, hess)[: order + 1]
+
+    def _add(self, atom, d, r, sel, order, val, grad, hess):
+        out = atom.evaluate(d + atom.positions[0], order)
+        s, ds, dds = _switch(r, self.r_in, self.r_out)
+        f = out[0]
+        val[sel] += s * f
+        if order == 0:
+            return
+        safe = np.maximum(r, 1e-12)
+        e = d / safe[:, None]                     # unit vector (switch is flat at r < r_in)
+        gs = ds[:, None] * e
+        grad[sel] += s[:, None] * out[1] + f[:, None] * gs
+        if order == 1:
+            return
+        ee = e[:, :, None] * e[:, None, :]
+        hs = dds[:, None, None] * ee + (ds / safe)[:, None, None] * (np.eye(3) - ee)
+        gp = out[1]
+        hess[sel] += (s[:, None, None] * out[2] + f[:, None, None] * hs
+                      + gp[:, :, None] * gs[:, None, :] + gs[:, :, None] * gp[:, None, :])
+
+    def on_grid(self, origin, axes, shape) -> np.ndarray:
+        """Values at every point of a regular grid, touching only the spheres.
+
+        Parameters
+        ----------
+        origin : (3,) array_like, bohr
+        axes : (3, 3) array_like, bohr (rows are step vectors)
+        shape : tuple of 3 int
+
+        Notes
+        -----
+        For a periodic grid build the model with ``cell``: the periodic
+        images then supply the contributions across the cell faces.
+
+        Returns
+        -------
+        (nx, ny, nz) float array
+        """
+        origin = np.asarray(origin, dtype=np.float64)
+        axes = np.asarray(axes, dtype=np.float64)
+        shape = np.asarray(shape, dtype=np.int64)
+        inv = np.linalg.inv(axes)
+        half = self.r_out * np.linalg.norm(inv, axis=0)  # index half-widths
+        flat_all, val_all = [], []
+        for atom, pos in zip(self._atoms, self.positions):
+            c = (pos - origin) @ inv
+            lo = np.floor(c - half).astype(np.int64)
+            hi = np.ceil(c + half).astype(np.int64)
+            lo = np.maximum(lo, 0)
+            hi = np.minimum(hi, shape - 1)
+            if np.any(hi < lo):
+                continue
+            ii, jj, kk = np.meshgrid(*[np.arange(a, b + 1) for a, b in zip(lo, hi)], indexing="ij")
+            idx = np.stack([ii.ravel(), jj.ravel(), kk.ravel()], axis=1)
+            d = origin + idx @ axes - pos
+            r2 = np.einsum("ij,ij->i", d, d)
+            m = r2 < self.r_out * self.r_out
+            idx, d, r = idx[m], d[m], np.sqrt(r2[m])
+            f = atom.evaluate(d + pos, 0)[0] * _switch(r, self.r_in, self.r_out)[0]
+            flat_all.append(np.ravel_multi_index(idx.T, tuple(shape)))
+            val_all.append(f)
+        total = int(np.prod(shape))
+        if not flat_all:
+            return np.zeros(tuple(shape))
+        out = np.bincount(np.concatenate(flat_all), weights=np.concatenate(val_all),
+                          minlength=total)
+        return out.reshape(tuple(shape))
