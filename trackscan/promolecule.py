@@ -32,7 +32,7 @@ from trackscan.grid import DensityGrid
 __all__ = ["Promolecule", "CLEMENTI_RAIMONDI", "atom_terms", "MODEL_LABEL", "promolecule_grid",
            "grid_box"]
 
-MODEL_LABEL = "promolecular model (Clementi–Raimondi STO free atoms)"
+MODEL_LABEL = "promolecular model (Clementi-Raimondi STO free atoms)"
 """Label carried by every output made from the built-in model."""
 
 #: Clementi & Raimondi (1963) effective nuclear charges Z_eff, in the order
@@ -146,7 +146,7 @@ class Promolecule:
     Attributes
     ----------
     label : str
-        ``"promolecular model (Clementi–Raimondi STO free atoms)"``; put it in
+        ``"promolecular model (Clementi-Raimondi STO free atoms)"``; put it in
         every output that uses the model.
     numbers, positions : numpy arrays (read-only)
 

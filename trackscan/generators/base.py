@@ -1,0 +1,147 @@
+"""The common interface of density generators.
+
+A generator turns a coordinate value into a density cube::
+
+    gen = make_generator(config, coordinate=manifest.coordinate)
+    gen.describe()                 # "PySCF RHF/6-31g", "promolecular model (...)", ...
+    gen.geometry(1.75)             # XYZFrame (bohr), when there is a geometry drive
+    out = gen.generate(1.75, "frames/frame_p1.750000.cube", workdir="frames")
+    out.path, out.energy, out.cached
+
+Every generator writes the cube atomically: a failure leaves no file (and an
+older file at the same path untouched).
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+from trackscan.errors import GeneratorError
+from trackscan.io.xyz import XYZFrame, write_xyz
+
+__all__ = ["Generator", "GeneratedFrame", "sibling"]
+
+_CUBE_SUFFIXES = (".cube.gz", ".cube.bz2", ".cube.xz", ".cube", ".cub")
+
+
+def sibling(cube_path, suffix: str) -> Path:
+    """A file beside a cube with the cube's name and another suffix.
+
+    ``frames/f01.cube.gz`` with ``.xyz`` gives ``frames/f01.xyz``.
+    """
+    p = Path(cube_path)
+    name = p.name
+    for s in _CUBE_SUFFIXES:
+        if name.lower().endswith(s):
+            name = name[: -len(s)]
+            break
+    return p.with_name(name + suffix)
+
+
+@dataclass(frozen=True)
+class GeneratedFrame:
+    """What a generator produced for one coordinate value.
+
+    Attributes
+    ----------
+    path : Path
+        The cube file (usable directly as a path: ``os.fspath(frame)``).
+    value : float
+        Coordinate value.
+    energy : float or None
+        Total energy (hartree), when the source computes one.
+    cached : bool
+        True when the result was taken from a previous run.
+    geometry : Path or None
+        XYZ file of the geometry, written beside the cube.
+    log : Path or None
+        Log of the external program, beside the cube.
+    """
+
+    path: Path
+    value: float
+    energy: float | None = None
+    cached: bool = False
+    geometry: Path | None = None
+    log: Path | None = None
+
+    def __fspath__(self) -> str:
+        return os.fspath(self.path)
+
+
+class Generator:
+    """Base class: a density source at any value of the scanned coordinate.
+
+    Parameters
+    ----------
+    drive : CoordinateDrive or TrajectoryDrive, optional
+        Source of geometries.
+
+    Attributes
+    ----------
+    is_model : bool
+        True for the built-in promolecular model (outputs must say so).
+    """
+
+    is_model = False
+
+    def __init__(self, drive=None):
+        self.drive = drive
+
+    @property
+    def has_geometry(self) -> bool:
+        """True when :meth:`geometry` can give a geometry."""
+        return self.drive is not None
+
+    def describe(self) -> str:
+        """One line naming the density source, for reports."""
+        raise NotImplementedError
+
+    def geometry(self, value: float) -> XYZFrame:
+        """The geometry at coordinate `value`.
+
+        Raises
+        ------
+        GeneratorError
+            When the manifest has no ``generator.geometry`` or the value is
+            out of range.
+        """
+        if self.drive is None:
+            raise GeneratorError("this generator has no geometry drive "
+                                 "(add generator.geometry to the manifest)")
+        return self.drive.geometry(value)
+
+    def write_geometry(self, value: float, path) -> Path | None:
+        """Write the geometry at `value` to the XYZ file `path` (None without a drive)."""
+        if self.drive is None:
+            return None
+        write_xyz(path, self.geometry(value))
+        return Path(path)
+
+    def generate(self, value: float, cube_path, workdir=None) -> GeneratedFrame:
+        """Produce the density cube at coordinate `value`.
+
+        Parameters
+        ----------
+        value : float
+            Coordinate value (in the coordinate's unit).
+        cube_path : str or os.PathLike
+            Where the cube goes; written atomically.
+        workdir : str or os.PathLike, optional
+            Scratch/cache folder (default: the cube's folder).
+
+        Returns
+        -------
+        GeneratedFrame
+
+        Raises
+        ------
+        GeneratorError
+            When the source fails; no cube is left at `cube_path`.
+        """
+        raise NotImplementedError
+
+    def __repr__(self) -> str:
+        return f"<{type(self).__name__}: {self.describe()}>"

@@ -1,0 +1,347 @@
+"""The manifest's ``generator`` section: validated into frozen value objects.
+
+Shape (every key optional, but a density source needs a geometry unless it is
+a command that does not use ``{xyz}``)::
+
+    generator:
+      geometry:                        # where geometries come from
+        xyz: start.xyz                 # base geometry (first frame of the file) ...
+        drive: {distance: [1, 2]}      # ... with one driven coordinate
+                                       #   (or angle: [i, j, k] / dihedral: [i, j, k, l];
+                                       #   optional move: [..] and unit: bohr|angstrom|degree|radian)
+        # or:  trajectory: relaxed-scan.xyz   (frames carry "value=..." comments,
+        #      or give values: [..], or the coordinate's definition is measured)
+      # one density source (default: the built-in promolecular model):
+      promolecule: {spacing: 0.15, margin: 4.0}          # bohr
+      pyscf: {method: HF, basis: 6-31g, charge: 0, spin: 0, spacing: 0.2, margin: 4.0}
+      command: ["my-qc-wrapper", "--at", "{value}", "--geom", "{xyz}", "--out", "{cube}"]
+      timeout: 600                     # seconds, for command only
+
+Paths resolve relative to the manifest.  Wrong keys and values raise
+:class:`~trackscan.errors.ConfigError` naming the key path, e.g.
+``generator.geometry.drive``.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+from trackscan.coordinates import COORDINATE_KINDS
+from trackscan.errors import ConfigError
+
+__all__ = ["GeneratorConfig", "GeometryConfig", "DriveConfig", "PromoleculeConfig",
+           "PySCFConfig", "CommandConfig", "parse_generator_config", "PLACEHOLDERS"]
+
+#: Placeholders a command template may use.
+PLACEHOLDERS = ("value", "xyz", "cube", "workdir")
+
+_TOP = ("geometry", "promolecule", "pyscf", "command", "timeout")
+_GEOMETRY = ("xyz", "drive", "trajectory", "values")
+_DRIVE = tuple(COORDINATE_KINDS) + ("move", "unit")
+_PROMOLECULE = ("spacing", "margin")
+_PYSCF = ("method", "basis", "charge", "spin", "spacing", "margin", "conv_tol", "max_cycle",
+          "cache")
+_PLACEHOLDER_RE = re.compile(r"\{([^{}]*)\}")
+
+
+@dataclass(frozen=True)
+class DriveConfig:
+    """A driven internal coordinate (1-based atoms)."""
+
+    kind: str
+    atoms: tuple
+    move: tuple | None = None
+    unit: str | None = None
+
+
+@dataclass(frozen=True)
+class GeometryConfig:
+    """Source of geometries: a base XYZ with a drive, or a trajectory file."""
+
+    xyz: Path | None = None
+    drive: DriveConfig | None = None
+    trajectory: Path | None = None
+    values: tuple | None = None
+
+
+@dataclass(frozen=True)
+class PromoleculeConfig:
+    """Built-in model cubes: grid `spacing` and box `margin` (bohr)."""
+
+    spacing: float = 0.15
+    margin: float = 4.0
+
+
+@dataclass(frozen=True)
+class PySCFConfig:
+    """PySCF densities.
+
+    Attributes
+    ----------
+    method : str
+        ``HF`` (restricted for spin 0, else unrestricted), ``RHF``, ``UHF``,
+        ``ROHF``, or a DFT functional name PySCF knows (``B3LYP``, ``PBE0``...).
+    basis : str
+    charge, spin : int
+        Total charge; spin = 2S (number of unpaired electrons).
+    spacing, margin : float
+        Cube grid step and box margin (bohr).
+    conv_tol : float
+        SCF energy convergence (hartree).
+    max_cycle : int
+    cache : Path or None
+        Folder for converged results (default: ``pyscf-cache`` in the work folder).
+    """
+
+    method: str = "HF"
+    basis: str = "6-31g"
+    charge: int = 0
+    spin: int = 0
+    spacing: float = 0.2
+    margin: float = 4.0
+    conv_tol: float = 1e-9
+    max_cycle: int = 100
+    cache: Path | None = None
+
+
+@dataclass(frozen=True)
+class CommandConfig:
+    """An external program: argument template and optional timeout (s)."""
+
+    args: tuple
+    timeout: float | None = None
+
+    @property
+    def uses(self) -> frozenset:
+        """Placeholders that appear in the template."""
+        found = set()
+        for a in self.args:
+            found.update(m.group(1) for m in _PLACEHOLDER_RE.finditer(a))
+        return frozenset(found)
+
+
+@dataclass(frozen=True)
+class GeneratorConfig:
+    """The validated ``generator`` section.
+
+    Attributes
+    ----------
+    source : {'promolecule', 'pyscf', 'command'}
+    options : PromoleculeConfig, PySCFConfig or CommandConfig
+    geometry : GeometryConfig or None
+    manifest : Path or None
+        The manifest the section came from.
+    """
+
+    source: str
+    options: object
+    geometry: GeometryConfig | None = None
+    manifest: Path | None = None
+
+
+class _Check:
+    def __init__(self, path):
+        self.path = path
+
+    def fail(self, key, message):
+        raise ConfigError(message, self.path, key)
+
+    def mapping(self, value, key, allowed):
+        if not isinstance(value, dict):
+            self.fail(key, f"expected a mapping, got {type(value).__name__}")
+        for k in value:
+            if k not in allowed:
+                close = difflib.get_close_matches(str(k), allowed, n=1)
+                hint = f" (did you mean {close[0]!r}?)" if close else \
+                    f" (expected one of: {', '.join(allowed)})"
+                self.fail(f"{key}.{k}", f"unknown key{hint}")
+        return value
+
+    def number(self, value, key, *, positive=False, minimum=None):
+        if isinstance(value, str):
+            # YAML 1.1 reads 1e-9 (no dot) as a string
+            try:
+                value = float(value)
+            except ValueError:
+                pass
+        if isinstance(value, bool) or not isinstance(value, (int, float)) \
+                or not math.isfinite(value):
+            self.fail(key, f"expected a number, got {value!r}")
+        if positive and value <= 0:
+            self.fail(key, f"must be > 0, got {value!r}")
+        if minimum is not None and value < minimum:
+            self.fail(key, f"must be >= {minimum}, got {value!r}")
+        return float(value)
+
+    def integer(self, value, key, *, minimum=None):
+        if isinstance(value, bool) or not isinstance(value, int):
+            self.fail(key, f"expected an integer, got {value!r}")
+        if minimum is not None and value < minimum:
+            self.fail(key, f"must be >= {minimum}, got {value!r}")
+        return int(value)
+
+    def string(self, value, key):
+        if not isinstance(value, str) or not value.strip():
+            self.fail(key, f"expected a non-empty string, got {value!r}")
+        return value
+
+    def file(self, value, key, base):
+        p = base / self.string(value, key)
+        if not p.is_file():
+            self.fail(key, f"file not found: {p}")
+        return p
+
+
+def _drive(raw, chk: _Check) -> DriveConfig:
+    key = "generator.geometry.drive"
+    chk.mapping(raw, key, _DRIVE)
+    kinds = [k for k in COORDINATE_KINDS if k in raw]
+    if len(kinds) != 1:
+        chk.fail(key, "give exactly one of distance: [i, j], angle: [i, j, k], "
+                      "dihedral: [i, j, k, l]")
+    kind = kinds[0]
+    n = COORDINATE_KINDS[kind]
+    atoms = raw[kind]
+    if not isinstance(atoms, list) or len(atoms) != n or not all(
+            isinstance(a, int) and not isinstance(a, bool) and a >= 1 for a in atoms):
+        chk.fail(f"{key}.{kind}", f"expected a list of {n} atom numbers (1-based), got {atoms!r}")
+    if len(set(atoms)) != n:
+        chk.fail(f"{key}.{kind}", f"atoms must be distinct, got {atoms!r}")
+    move = None
+    if "move" in raw:
+        m = raw["move"]
+        if not isinstance(m, list) or not m or not all(
+                isinstance(a, int) and not isinstance(a, bool) and a >= 1 for a in m):
+            chk.fail(f"{key}.move", f"expected a list of atom numbers (1-based), got {m!r}")
+        if atoms[0] in m or atoms[-1] not in m:
+            chk.fail(f"{key}.move", f"must include atom {atoms[-1]} and not atom {atoms[0]}")
+        move = tuple(sorted(set(m)))
+    unit = None
+    if "unit" in raw:
+        unit = chk.string(raw["unit"], f"{key}.unit").strip().lower()
+        allowed = ("angstrom", "bohr") if kind == "distance" else ("degree", "radian")
+        if unit not in allowed:
+            chk.fail(f"{key}.unit", f"a {kind} is in {' or '.join(allowed)}, got {raw['unit']!r}")
+    return DriveConfig(kind, tuple(atoms), move, unit)
+
+
+def _geometry(raw, chk: _Check, base: Path) -> GeometryConfig:
+    key = "generator.geometry"
+    chk.mapping(raw, key, _GEOMETRY)
+    if ("xyz" in raw) == ("trajectory" in raw):
+        chk.fail(key, "give either xyz (with drive) or trajectory")
+    if "xyz" in raw:
+        if "drive" not in raw:
+            chk.fail(f"{key}.drive", "missing: a base geometry needs a driven coordinate, "
+                                     "e.g. drive: {distance: [1, 2]}")
+        if "values" in raw:
+            chk.fail(f"{key}.values", "values belong to a trajectory, not to a drive")
+        return GeometryConfig(xyz=chk.file(raw["xyz"], f"{key}.xyz", base),
+                              drive=_drive(raw["drive"], chk))
+    traj = chk.file(raw["trajectory"], f"{key}.trajectory", base)
+    drive = _drive(raw["drive"], chk) if "drive" in raw else None
+    values = None
+    if "values" in raw:
+        v = raw["values"]
+        if not isinstance(v, list) or len(v) < 2:
+            chk.fail(f"{key}.values", f"expected a list of numbers, one per frame, got {v!r}")
+        values = tuple(chk.number(x, f"{key}.values[{i}]") for i, x in enumerate(v))
+    return GeometryConfig(trajectory=traj, drive=drive, values=values)
+
+
+def _command(raw, timeout, chk: _Check, has_geometry: bool) -> CommandConfig:
+    key = "generator.command"
+    if isinstance(raw, str):
+        chk.fail(key, "expected a list of arguments, e.g. [\"prog\", \"--out\", \"{cube}\"] "
+                      "(commands are never run through a shell)")
+    if not isinstance(raw, list) or not raw:
+        chk.fail(key, f"expected a non-empty list of arguments, got {raw!r}")
+    args = []
+    for i, a in enumerate(raw):
+        if isinstance(a, bool) or not isinstance(a, (str, int, float)):
+            chk.fail(f"{key}[{i}]", f"expected a string, got {a!r}")
+        a = a if isinstance(a, str) else repr(a) if isinstance(a, float) else str(a)
+        for m in _PLACEHOLDER_RE.finditer(a):
+            if m.group(1) not in PLACEHOLDERS:
+                close = difflib.get_close_matches(m.group(1), PLACEHOLDERS, n=1)
+                hint = f" (did you mean {{{close[0]}}}?)" if close else ""
+                chk.fail(f"{key}[{i}]", f"unknown placeholder {m.group(0)}{hint}; "
+                                        f"known: {', '.join('{%s}' % p for p in PLACEHOLDERS)}")
+        args.append(a)
+    if not args[0].strip():
+        chk.fail(f"{key}[0]", "the program name is empty")
+    cfg = CommandConfig(tuple(args), timeout)
+    if "cube" not in cfg.uses:
+        chk.fail(key, "the template must say where to write the density: add {cube}")
+    if "xyz" in cfg.uses and not has_geometry:
+        chk.fail(key, "{xyz} needs a geometry: add generator.geometry")
+    return cfg
+
+
+def parse_generator_config(mapping, *, path=None) -> GeneratorConfig:
+    """Validate a manifest's ``generator`` mapping.
+
+    Parameters
+    ----------
+    mapping : dict
+        The section as loaded from YAML.
+    path : str or os.PathLike, optional
+        The manifest file; relative paths resolve against its folder and
+        errors name it.
+
+    Returns
+    -------
+    GeneratorConfig
+
+    Raises
+    ------
+    ConfigError
+        With the key path of the first problem.
+    """
+    chk = _Check(None if path is None else Path(path))
+    base = Path(path).absolute().parent if path is not None else Path.cwd()
+    chk.mapping(mapping, "generator", _TOP)
+    geometry = _geometry(mapping["geometry"], chk, base) if "geometry" in mapping else None
+    sources = [k for k in ("promolecule", "pyscf", "command") if k in mapping]
+    if len(sources) > 1:
+        chk.fail("generator", f"give one density source, not {' and '.join(sources)}")
+    source = sources[0] if sources else "promolecule"
+    if "timeout" in mapping and source != "command":
+        chk.fail("generator.timeout", "a timeout applies to command only")
+    if source == "command":
+        timeout = None
+        if "timeout" in mapping and mapping["timeout"] is not None:
+            timeout = chk.number(mapping["timeout"], "generator.timeout", positive=True)
+        options = _command(mapping["command"], timeout, chk, geometry is not None)
+    else:
+        if geometry is None:
+            chk.fail("generator.geometry", f"missing: the {source} source computes the density "
+                                           "from a geometry")
+        raw = mapping.get(source) or {}
+        key = f"generator.{source}"
+        if source == "promolecule":
+            chk.mapping(raw, key, _PROMOLECULE)
+            options = PromoleculeConfig(
+                spacing=chk.number(raw.get("spacing", 0.15), f"{key}.spacing", positive=True),
+                margin=chk.number(raw.get("margin", 4.0), f"{key}.margin", minimum=0))
+        else:
+            chk.mapping(raw, key, _PYSCF)
+            cache = None
+            if "cache" in raw:
+                cache = base / chk.string(raw["cache"], f"{key}.cache")
+            options = PySCFConfig(
+                method=chk.string(raw.get("method", "HF"), f"{key}.method").strip(),
+                basis=chk.string(raw.get("basis", "6-31g"), f"{key}.basis").strip(),
+                charge=chk.integer(raw.get("charge", 0), f"{key}.charge"),
+                spin=chk.integer(raw.get("spin", 0), f"{key}.spin", minimum=0),
+                spacing=chk.number(raw.get("spacing", 0.2), f"{key}.spacing", positive=True),
+                margin=chk.number(raw.get("margin", 4.0), f"{key}.margin", minimum=0),
+                conv_tol=chk.number(raw.get("conv_tol", 1e-9), f"{key}.conv_tol", positive=True),
+                max_cycle=chk.integer(raw.get("max_cycle", 100), f"{key}.max_cycle", minimum=1),
+                cache=cache)
+    return GeneratorConfig(source=source, options=options, geometry=geometry,
+                           manifest=None if path is None else Path(path).absolute())
