@@ -19,6 +19,7 @@ them into the events and mechanism of a change (DESIGN.md section 3):
 
 from __future__ import annotations
 
+import math
 from collections import Counter
 from dataclasses import dataclass, field
 
@@ -28,7 +29,7 @@ from trackscan.tracking.matching import pair_folds
 from trackscan.tracking.resolution import interpolation_floor, rho_floor
 from trackscan.tracking.structures import end_label, same_structure_type, sort_ends
 
-__all__ = ["StepEvents", "analyse_step", "find_changes"]
+__all__ = ["StepEvents", "analyse_step", "find_changes", "sig"]
 
 _LOST = {"bond": "bond_broken", "ring": "ring_lost", "cage": "cage_lost",
          "non_nuclear": "attractor_lost", "nuclear": "attractor_lost"}
@@ -139,7 +140,7 @@ def _event(cp, view, tracks, lost, partner=None):
     elif cp.kind in ("ring", "cage", "nuclear") and cp.atoms:
         ev["atoms"] = list(cp.atoms)
     if cp.kind == "non_nuclear":
-        ev["position_bohr"] = [float(x) for x in cp.position]
+        ev["position_bohr"] = [sig(x) for x in cp.position]
     if partner is not None:
         ev["fold_with"] = tracks[partner.id]
     return ev
@@ -168,12 +169,24 @@ def _digits(view, settings):
     return view.significant_digits or settings.printed_digits
 
 
+def sig(x, digits: int = 10):
+    """`x` rounded to `digits` significant digits, so that noise far below any
+    meaningful digit (e.g. from a rigid rotation) cannot change the output;
+    None stays None, non-finite values become None."""
+    if x is None:
+        return None
+    x = float(x)
+    if not math.isfinite(x):
+        return None
+    return float(f"{x:.{digits}g}") + 0.0
+
+
 def _pair_record(lo, hi, d, frame, view, tracks, settings):
     drho = abs(hi.rho - lo.rho)
     floor = rho_floor(max(lo.rho, hi.rho), view.spacing, _digits(view, settings))
     return {"cps": [lo.id, hi.id], "tracks": [tracks[lo.id], tracks[hi.id]], "frame": frame,
-            "separation_bohr": d, "rho_difference": drho, "rho_floor": floor,
-            "margin": drho / floor if floor > 0 else None}
+            "separation_bohr": sig(d), "rho_difference": sig(drho), "rho_floor": sig(floor),
+            "margin": sig(drho / floor) if floor > 0 else None}
 
 
 def _mark_noise(steps, views, tracks, aligned, settings):
@@ -276,9 +289,9 @@ def find_changes(views, tracks, matches, aligned, keys, graphs, structures, *, s
         ref_rho = max((max(lo.rho, hi.rho) for lo, hi, _ in st.folds_lost + st.folds_born),
                       default=float("nan"))
         resolution = {
-            "spacing_bohr": [a.spacing, b.spacing],
-            "rho_floor": [rho_floor(ref_rho, v.spacing, _digits(v, settings)) for v in (a, b)],
-            "interpolation_floor": [interpolation_floor(v.spacing) for v in (a, b)],
+            "spacing_bohr": [sig(a.spacing), sig(b.spacing)],
+            "rho_floor": [sig(rho_floor(ref_rho, v.spacing, _digits(v, settings))) for v in (a, b)],
+            "interpolation_floor": [sig(interpolation_floor(v.spacing)) for v in (a, b)],
             "pairs": pairs,
             "margin": margin,
             "resolved": margin is None or margin >= 1.0,

@@ -15,6 +15,8 @@ import math
 
 import numpy as np
 
+from trackscan.tracking.changes import sig
+
 __all__ = ["bond_series", "early_warnings"]
 
 _MIN_ELLIPTICITY = 0.3
@@ -53,12 +55,12 @@ def bond_series(views, tracks, ends_of):
                                       "nearest_ring_bohr": []})
             s["frames"].append(k)
             s["value"].append(v.value)
-            s["rho"].append(cp.rho)
-            s["laplacian"].append(cp.laplacian)
-            s["ellipticity"].append(cp.ellipticity)
-            s["min_abs_eigenvalue"].append(cp.min_abs_eigenvalue)
+            s["rho"].append(sig(cp.rho))
+            s["laplacian"].append(sig(cp.laplacian))
+            s["ellipticity"].append(sig(cp.ellipticity))
+            s["min_abs_eigenvalue"].append(sig(cp.min_abs_eigenvalue))
             s["nearest_ring_bohr"].append(
-                float(np.linalg.norm(rings - cp.position, axis=1).min()) if len(rings) else None)
+                sig(np.linalg.norm(rings - cp.position, axis=1).min()) if len(rings) else None)
     return [series[t] for t in sorted(series, key=lambda t: int(t[1:]))]
 
 
@@ -126,7 +128,7 @@ def early_warnings(series, changes, *, horizon, sign, coordinate="coordinate"):
                     if s["frames"][j] not in flagged:
                         flagged.append(s["frames"][j])
                     kinds.add(name)
-                    projected[name] = root
+                    projected[name] = sig(root)
         if not flagged:
             continue
         follow = None

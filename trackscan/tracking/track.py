@@ -9,7 +9,7 @@ import numpy as np
 
 from trackscan.errors import ConsistencyError, InputError
 from trackscan.tracking.align import apply_transform, chain_alignments
-from trackscan.tracking.changes import find_changes
+from trackscan.tracking.changes import find_changes, sig
 from trackscan.tracking.early import bond_series, early_warnings
 from trackscan.tracking.frames import check_same_atoms, view_frame
 from trackscan.tracking.matching import assign_tracks, match_step
@@ -115,8 +115,8 @@ def track_scan(frames, *, settings=None, coordinate="coordinate"):
         f["structure"] = structures[k]
         for cp in f.get("critical_points") or []:
             cp["track"] = tracks[k][str(cp["id"])]
-        f["resolution"] = {"spacing_bohr": v.spacing,
-                           "interpolation_floor": interpolation_floor(v.spacing),
+        f["resolution"] = {"spacing_bohr": sig(v.spacing),
+                           "interpolation_floor": sig(interpolation_floor(v.spacing)),
                            "printed_digits": v.significant_digits or settings.printed_digits}
         out_frames.append(f)
     return {
