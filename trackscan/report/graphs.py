@@ -85,7 +85,6 @@ def draw_graph(ax, scan: ScanData, frame, plane: Plane, *, involved=(), changed=
                    zorder=5)
         ax.annotate(atom_label(a), uv, xytext=(6, 5), textcoords="offset points", fontsize=9,
                     fontweight="bold" if bold else "normal", zorder=6)
-    ax.set_aspect("equal", adjustable="datalim")
     ax.margins(0.15)
     ax.grid(alpha=0.25, lw=0.5)
     ax.set_xlabel("in-plane u (Å)")
@@ -143,6 +142,8 @@ def graph_figure(scan: ScanData, change, number: int):
                      f"{scan.unit_symbol}".rstrip(), fontsize=10)
     axes[0].set_ylabel("in-plane v (Å)")
     _share_limits(axes)
+    for ax in axes:
+        ax.set_aspect("equal", adjustable="box")
     fig.legend(handles=legend_handles(kinds), loc="lower center", ncol=3, fontsize=8,
                frameon=False, bbox_to_anchor=(0.5, -0.02))
     fig.subplots_adjust(bottom=0.22)
@@ -155,11 +156,16 @@ def graph_figure(scan: ScanData, change, number: int):
 
 
 def _share_limits(axes) -> None:
+    """Same square limits on every live panel, so the two sides compare directly."""
     live = [ax for ax in axes if ax.axison]
-    if len(live) < 2:
+    if not live:
         return
     xs = [ax.get_xlim() for ax in live]
     ys = [ax.get_ylim() for ax in live]
+    x0, x1 = min(x[0] for x in xs), max(x[1] for x in xs)
+    y0, y1 = min(y[0] for y in ys), max(y[1] for y in ys)
+    half = max(x1 - x0, y1 - y0) / 2
+    cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
     for ax in live:
-        ax.set_xlim(min(x[0] for x in xs), max(x[1] for x in xs))
-        ax.set_ylim(min(y[0] for y in ys), max(y[1] for y in ys))
+        ax.set_xlim(cx - half, cx + half)
+        ax.set_ylim(cy - half, cy + half)

@@ -15,8 +15,10 @@ import json
 from trackscan.io.atomic import write_text_atomic
 from trackscan.report.document import Table
 from trackscan.report.scan_data import CP_KINDS, ScanData
-from trackscan.report.wording import (change_decimals, change_words, coord_decimals, describe_value, fmt_coord,
-                                      fmt_sig, fmt_uncertainty, uncertainty_of)
+from trackscan.report.wording import (change_decimals, change_words, coord_decimals,
+                                      estimate_decimals, describe_value, fmt_coord,
+                                      fmt_sig, fmt_uncertainty, resolution_words,
+                                      uncertainty_of)
 from trackscan.units import BOHR_IN_ANGSTROM
 
 __all__ = ["summary_table", "resolution_table", "frame_table", "warning_table",
@@ -50,7 +52,7 @@ def summary_table(scan: ScanData) -> Table:
                 if bracket else "—")
         unc, origin = uncertainty_of(change)
         est = change.get("estimate")
-        etxt = fmt_coord(est, d)
+        etxt = fmt_coord(est, estimate_decimals(change))
         if unc is not None and etxt != "—":
             etxt += f" ± {fmt_uncertainty(unc)} ({origin})"
         rows.append((str(k), btxt, etxt, str(change.get("estimate_method") or "—"),
@@ -66,9 +68,7 @@ def resolution_table(scan: ScanData) -> Table:
     header = ("#", "Resolution limit (from scan.json)", "Structure type changed", "Note")
     rows = []
     for k, change in enumerate(scan.changes, 1):
-        res = change.get("resolution")
-        rtxt = describe_value(res) if res not in (None, {}, "") else \
-            "not given by the analysis"
+        rtxt = resolution_words(change, scan)
         stc = change.get("structure_type_changed")
         rows.append((str(k), rtxt, describe_value(stc) if stc is not None else "—",
                      str(change.get("note") or "—")))

@@ -10,8 +10,9 @@ import math
 
 from trackscan.report.scan_data import ScanData, cp_by_id
 
-__all__ = ["fmt_coord", "coord_decimals", "change_decimals", "fmt_sig", "fmt_uncertainty", "event_words",
-           "change_words", "describe_value", "pretty_key", "uncertainty_of"]
+__all__ = ["fmt_coord", "coord_decimals", "change_decimals", "estimate_decimals",
+           "fmt_sig", "fmt_uncertainty", "event_words",
+           "change_words", "resolution_words", "describe_value", "pretty_key", "uncertainty_of"]
 
 _DASH = "–"
 
@@ -45,6 +46,15 @@ def change_decimals(change) -> int:
     bracket = change.get("bracket") or []
     width = abs(bracket[1] - bracket[0]) if len(bracket) == 2 else None
     return coord_decimals(*bracket, width=width)
+
+
+def estimate_decimals(change) -> int:
+    """Decimals for a change's estimate: enough for its bracket and its uncertainty."""
+    d = change_decimals(change)
+    unc, _ = uncertainty_of(change)
+    if unc is not None and unc > 0:
+        d = max(d, min(10, 1 - math.floor(math.log10(unc))))
+    return d
 
 
 def fmt_coord(x, decimals: int = 4) -> str:
@@ -131,8 +141,6 @@ def event_words(event, change, scan: ScanData) -> str:
     """
     before, after = scan.change_frames(change)
     kind = str(event.get("kind", "event"))
-    mechanism = change.get("mechanism")
-    kinds = {str(e.get("kind")) for e in change.get("events") or []}
     frame = after if kind.endswith("_formed") else before
     if kind in ("bond_formed", "bond_broken"):
         verb = "forms" if kind == "bond_formed" else "breaks"
@@ -145,14 +153,13 @@ def event_words(event, change, scan: ScanData) -> str:
         what, _, how = kind.partition("_")
         text = f"{what} CP"
         cp = cp_by_id(frame, event.get("cp")) if event.get("cp") is not None else None
-        if cp is not None and what == "ring" and cp.get("atoms"):
-            text += f" of ring {scan.labels(cp['atoms'], frame)}"
-        partner = "bond" if what == "ring" else "ring"
-        partner_kinds = ({"bond_broken", "bond_formed"} if what == "ring"
-                         else {"ring_lost", "ring_formed"})
-        if mechanism == "fold" and kinds & partner_kinds:
+        atoms = event.get("atoms") or (cp or {}).get("atoms")
+        if what == "ring" and atoms:
+            text += f" (ring {scan.labels(atoms, frame)})"
+        partner = _fold_partner(event, change, frame, what, scan)
+        if partner is not None:
             verb = "is born together with" if how == "formed" else "annihilates with"
-            return f"{text} {verb} the {partner} CP (fold)"
+            return f"{text} {verb} the {partner} (fold)"
         return f"{text} {'appears' if how == 'formed' else 'disappears'}"
     if kind in ("attractor_formed", "attractor_lost"):
         verb = "appears" if kind == "attractor_formed" else "disappears"
@@ -162,6 +169,89 @@ def event_words(event, change, scan: ScanData) -> str:
         return f"non-nuclear attractor{where} {verb}"
     extra = f" ({scan.labels(event['atoms'], frame)})" if event.get("atoms") else ""
     return kind.replace("_", " ") + extra
+
+
+def _fold_partner(event, change, frame, what, scan):
+    """Words for the lower-index CP a ring or cage CP coalesces with, or None.
+
+    Uses the event's ``fold_with`` track id when present; otherwise, in a
+    fold change, the partner kind implied by the other events.
+    """
+    lower = "bond" if what == "ring" else "ring"
+    track = event.get("fold_with")
+    if track is not None:
+        for cp in (frame or {}).get("critical_points") or []:
+            if cp.get("track") == track:
+                if cp.get("kind") != lower:
+                    return None        # the higher-index partner tells the story
+                if lower == "bond" and cp.get("atoms"):
+                    return f"bond CP of {scan.labels(cp['atoms'], frame)}"
+                return f"{lower} CP"
+        return f"{lower} CP"
+    kinds = {str(e.get("kind")) for e in change.get("events") or []}
+    partner_kinds = ({"bond_broken", "bond_formed"} if what == "ring"
+                     else {"ring_lost", "ring_formed"})
+    if change.get("mechanism") == "fold" and kinds & partner_kinds:
+        return f"{lower} CP"
+    return None
+
+
+def resolution_words(change, scan: ScanData) -> str:
+    """The grid's resolution limit for one change, in words.
+
+    Reads the change's ``resolution`` (tracking: ``spacing_bohr``,
+    ``rho_floor``, ``pairs`` with ``separation_bohr``, ``rho_difference``,
+    ``rho_floor``, ``margin``; ``resolved``).  For each coalescing pair it
+    also gives how close to the fold the grid can follow the pair, from the
+    fold normal form (METHODS.md section 2): Δρ ∝ d³ and d² ∝ |s − s*|, so
+    the pair stays above the floor down to ``d_min = d · margin^(-1/3)``,
+    that is to within ``|s_k − s*| · margin^(-2/3)`` of the estimate s*.
+    """
+    res = change.get("resolution")
+    if res in (None, {}, ""):
+        return "not given by the analysis"
+    if not isinstance(res, dict):
+        return describe_value(res)
+    parts = []
+    spacing = res.get("spacing_bohr")
+    if spacing is not None:
+        parts.append(f"grid spacing {describe_value(spacing, 3)} bohr (frames before, after)")
+    estimate = change.get("estimate")
+    d = change_decimals(change)
+    for pair in res.get("pairs") or []:
+        if not isinstance(pair, dict):
+            continue
+        who = "/".join(str(t) for t in pair.get("tracks") or pair.get("cps") or [])
+        frame = scan.frame(pair.get("frame"))
+        text = f"pair {who} in frame {pair.get('frame')}"
+        sep, drho, floor = (pair.get("separation_bohr"), pair.get("rho_difference"),
+                            pair.get("rho_floor"))
+        if _finite(sep):
+            text += f": {fmt_sig(sep, 3)} bohr apart"
+        if _finite(drho) and _finite(floor):
+            text += f", Δρ = {fmt_sig(drho, 3)} a.u. against a floor of {fmt_sig(floor, 3)} a.u."
+        margin = pair.get("margin")
+        if _finite(margin) and margin > 0:
+            text += f" (margin {fmt_sig(margin, 3)})"
+            if _finite(sep):
+                text += f"; resolvable down to d ≈ {fmt_sig(sep * margin ** (-1 / 3), 2)} bohr"
+                if frame is not None and _finite(frame.get("value")) and _finite(estimate):
+                    reach = abs(frame["value"] - estimate) * margin ** (-2 / 3)
+                    text += (f", i.e. to within ≈ {fmt_sig(reach, 2)} {scan.unit_symbol} of "
+                             f"the estimate (fold normal form)").replace("  ", " ")
+        parts.append(text)
+    if not res.get("pairs"):
+        floors = res.get("rho_floor")
+        if floors is not None:
+            parts.append(f"density floor {describe_value(floors, 2)} a.u.")
+        parts.append("no coalescing pair: the bracket itself is the limit")
+    if "resolved" in res:
+        parts.append("resolved" if res["resolved"] else "NOT resolved: below the floor")
+    known = {"spacing_bohr", "pairs", "resolved", "rho_floor", "margin", "interpolation_floor"}
+    rest = {k: v for k, v in res.items() if k not in known}
+    if rest:
+        parts.append(describe_value(rest, 4))
+    return "; ".join(parts)
 
 
 def change_words(change, scan: ScanData) -> str:

@@ -1,0 +1,231 @@
+"""The report shows the numbers of scan.json: HTML and Markdown tables read back, CSVs, images.
+
+Input: the hand-built synthetic scan of report_fixtures.py.  The tables are
+parsed back with html.parser / a pipe-table reader and compared with the
+scan.json values at the precision each cell shows.
+"""
+
+from __future__ import annotations
+
+import base64
+import csv
+import importlib.util
+import json
+import re
+from pathlib import Path
+
+import pytest
+
+from trackscan.cli import main
+from trackscan.errors import InputError, ParseError
+from trackscan.report import load_scan, write_report
+from trackscan.units import ANGSTROM_IN_BOHR
+
+
+
+def _load(name):
+    spec = importlib.util.spec_from_file_location(name, Path(__file__).with_name(f"{name}.py"))
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
+ring_opening_scan = _load("report_fixtures").ring_opening_scan
+_reading = _load("report_reading")
+numbers, read_html = _reading.numbers, _reading.read_html
+read_markdown_tables, shown_equals = _reading.read_markdown_tables, _reading.shown_equals
+
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
+KINDS = ("nuclear", "non_nuclear", "bond", "ring", "cage", "degenerate")
+
+
+@pytest.fixture(scope="module")
+def report(tmp_path_factory):
+    out = tmp_path_factory.mktemp("report")
+    scan = ring_opening_scan()
+    (out / "scan.json").write_text(json.dumps(scan), encoding="utf-8")
+    files = write_report(out / "scan.json", out, date="2026-12-01")
+    return scan, files, out
+
+
+def _html(report):
+    return read_html(report[1].html.read_text(encoding="utf-8"))
+
+
+def _md_tables(report):
+    tables = read_markdown_tables(report[1].markdown.read_text(encoding="utf-8"))
+    return {t["header"][1] if t["header"][0] == "#" else t["header"][0]: t for t in tables}
+
+
+def _check_summary(header, rows, scan):
+    col = {h.split(" (")[0]: i for i, h in enumerate(header)}
+    assert len(rows) == len(scan["changes"])
+    for row, change in zip(rows, scan["changes"]):
+        lo, hi = numbers(row[col["Bracket"]])
+        assert shown_equals(lo, change["bracket"][0]) and shown_equals(hi, change["bracket"][1])
+        est, unc = numbers(row[col["Estimate ± uncertainty"]])
+        assert shown_equals(est, change["estimate"])
+        assert shown_equals(unc, change["uncertainty"])
+        assert numbers(row[col["Evaluations"]]) == [str(change["evaluations"])]
+        assert row[col["Mechanism"]] == change["mechanism"]
+        assert row[col["Estimate method"]] == change["estimate_method"]
+        assert "bond path C1–C2 breaks" in row[col["Events"]]
+        assert "annihilates with the bond CP" in row[col["Events"]]
+
+
+def _check_frames(header, rows, scan):
+    col = {h: i for i, h in enumerate(header)}
+    frames = sorted(scan["frames"], key=lambda f: f["value"])
+    assert len(rows) == len(frames)
+    short = dict(zip(("n", "nna", "b", "r", "c", "deg."), KINDS))
+    for row, f in zip(rows, frames):
+        assert row[col["Frame"]] == str(f["index"])
+        assert shown_equals(row[col["Coordinate (Å)"]], f["value"])
+        assert row[col["Structure"]] == str(f["structure"])
+        shown = {k: int(row[col[s]]) for s, k in short.items()}
+        assert shown == {k: f["counts"].get(k, 0) for k in KINDS}
+        assert int(row[col["n − b + r − c"]]) == f["poincare_hopf"]["value"]
+        assert int(row[col["Expected"]]) == f["poincare_hopf"]["expected"]
+        # Poincaré–Hopf for an isolated molecule, from the counts as shown
+        assert shown["nuclear"] + shown["non_nuclear"] - shown["bond"] + shown["ring"] \
+            - shown["cage"] == 1
+        assert shown_equals(row[col["Energy (hartree)"]], f["energy"])
+        if f["warnings"]:
+            assert f["warnings"][0] in row[col["Warnings"]]
+
+
+def test_html_tables_equal_scan_json(report):
+    scan = report[0]
+    page = _html(report)
+    summary = page.tables["table-summary"]
+    _check_summary(summary["header"], summary["rows"], scan)
+    frames = page.tables["table-frames"]
+    _check_frames(frames["header"], frames["rows"], scan)
+    head = dict(page.tables["table-header"]["rows"])
+    assert head["Scan"] == scan["scan"]["name"]
+    assert head["Density source"] == scan["scan"]["density_source"]
+    assert head["Frames"] == str(len(scan["frames"]))
+    settings = dict(page.tables["table-settings"]["rows"])
+    for key, value in scan["scan"]["settings"].items():
+        if isinstance(value, bool):
+            assert settings[key] == ("yes" if value else "no")
+        else:
+            assert shown_equals(settings[key], value)
+
+
+def test_markdown_tables_equal_scan_json(report):
+    scan = report[0]
+    tables = _md_tables(report)
+    summary = tables["Bracket (Å)"]
+    _check_summary(summary["header"], summary["rows"], scan)
+    frames = tables["Frame"]
+    _check_frames(frames["header"], frames["rows"], scan)
+
+
+def test_resolution_limit_given_for_each_change(report):
+    scan = report[0]
+    rows = _html(report).tables["table-resolution"]["rows"]
+    assert len(rows) == len(scan["changes"])
+    pair = scan["changes"][0]["resolution"]["pairs"][0]
+    text = rows[0][1]
+    assert "T-b12/T-r1" in text
+    shown = numbers(text.split("apart")[0].split(":")[-1])[0]
+    assert shown_equals(shown, pair["separation_bohr"])
+    assert "resolved" in text
+
+
+def test_cautions_are_stated(report):
+    text = report[1].html.read_text(encoding="utf-8")
+    md = report[1].markdown.read_text(encoding="utf-8")
+    for needle in ("method and the basis set", "unstable", "stability",
+                   "Grid spacing and the printed precision"):
+        assert needle in text and needle in md
+
+
+def test_every_image_is_embedded_and_matches_markdown_files(report):
+    _, files, out = report
+    page = _html(report)
+    assert page.images, "the report has figures"
+    embedded = []
+    for img in page.images:
+        src = img["src"]
+        assert src.startswith("data:image/png;base64,")
+        data = base64.b64decode(src.split(",", 1)[1], validate=True)
+        assert data.startswith(PNG_SIGNATURE)
+        embedded.append(data)
+        assert img.get("alt")
+    html_text = files.html.read_text(encoding="utf-8")
+    assert "http://" not in html_text and "https://" not in html_text.replace(
+        "https://jfly", "")  # no network resource is referenced
+    assert not [link for link in page.links if not link.startswith("#")]
+    md = files.markdown.read_text(encoding="utf-8")
+    refs = re.findall(r"!\[[^\]]*\]\(([^)]+)\)", md)
+    assert len(refs) == len(embedded)
+    for ref, data in zip(refs, embedded):
+        assert (out / ref).read_bytes() == data
+
+
+def test_csv_files_load_and_hold_scan_numbers(report):
+    scan, files, _ = report
+    with open(files.changes_csv, newline="", encoding="utf-8") as fh:
+        changes = list(csv.DictReader(fh))
+    assert len(changes) == len(scan["changes"])
+    for row, change in zip(changes, scan["changes"]):
+        assert float(row["bracket_low"]) == change["bracket"][0]
+        assert float(row["bracket_high"]) == change["bracket"][1]
+        assert float(row["estimate"]) == change["estimate"]
+        assert float(row["uncertainty"]) == change["uncertainty"]
+        assert int(row["evaluations"]) == change["evaluations"]
+        assert row["mechanism"] == change["mechanism"]
+        assert json.loads(row["resolution"]) == change["resolution"]
+    with open(files.critical_points_csv, newline="", encoding="utf-8") as fh:
+        cps = list(csv.DictReader(fh))
+    expected = [(f, cp) for f in sorted(scan["frames"], key=lambda f: f["value"])
+                for cp in f["critical_points"]]
+    assert len(cps) == len(expected)
+    for row, (f, cp) in zip(cps, expected):
+        assert int(row["frame"]) == f["index"] and float(row["coordinate"]) == f["value"]
+        assert row["id"] == cp["id"] and row["track"] == cp["track"]
+        assert row["kind"] == cp["kind"]
+        for axis, x in zip("xyz", cp["position_bohr"]):
+            assert float(row[f"{axis}_angstrom"]) * ANGSTROM_IN_BOHR == pytest.approx(x, abs=1e-12)
+        assert float(row["rho"]) == cp["rho"]
+
+
+def test_minimal_scan_without_optional_keys(tmp_path):
+    scan = {"frames": [{"index": i, "value": v} for i, v in enumerate((1.0, 1.1, 1.2))]}
+    files = write_report(scan, tmp_path, date=None)
+    page = read_html(files.html.read_text(encoding="utf-8"))
+    rows = page.tables["table-frames"]["rows"]
+    assert [r[0] for r in rows] == ["0", "1", "2"]
+    assert "No structural change" in files.markdown.read_text(encoding="utf-8")
+    with open(files.critical_points_csv, newline="") as fh:
+        assert len(list(csv.reader(fh))) == 1      # header only
+
+
+def test_rerun_without_date_is_byte_identical(tmp_path):
+    a = write_report(ring_opening_scan(), tmp_path / "a", date=None)
+    b = write_report(ring_opening_scan(), tmp_path / "b", date=None)
+    assert a.html.read_bytes() == b.html.read_bytes()
+    assert a.markdown.read_bytes() == b.markdown.read_bytes()
+
+
+@pytest.mark.parametrize("content, error", [
+    ("{not json", ParseError),
+    ('{"frames": 3}', InputError),
+    ('{"frames": [{"index": 0}]}', InputError),
+    ('{"frames": [], "changes": [{"bracket": [1]}]}', InputError),
+])
+def test_bad_scan_json_is_an_input_error(tmp_path, content, error):
+    path = tmp_path / "scan.json"
+    path.write_text(content, encoding="utf-8")
+    with pytest.raises(error):
+        load_scan(path)
+    assert main(["report", str(path), "--out", str(tmp_path / "r")]) == 2
+
+
+def test_cli_writes_report_next_to_scan(tmp_path, capsys):
+    (tmp_path / "scan.json").write_text(json.dumps(ring_opening_scan()), encoding="utf-8")
+    assert main(["report", str(tmp_path), "--no-date"]) == 0
+    assert (tmp_path / "report.html").is_file() and (tmp_path / "report.md").is_file()
+    assert "report.html" in capsys.readouterr().out
