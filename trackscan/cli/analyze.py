@@ -1,0 +1,79 @@
+"""Analyse every frame of a scan, follow its critical points, report the changes.
+
+Analyses all frames (in parallel with --jobs N processes; frames still to be
+generated are generated first), tracks the critical points from frame to
+frame, prints a table of the structural changes (bracket, events, mechanism)
+and writes DIR/scan.json (default DIR: reports/<scan name>/ under the
+current folder).  Per-frame results are cached in DIR/.cache, keyed by each
+cube file's content, the analysis settings and the trackscan version, so a
+rerun analyses only new or changed frames.  The same input gives the same
+scan.json, byte for byte.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+from pathlib import Path
+
+from trackscan.analysis import analyze_scan, write_scan
+from trackscan.io.manifest import load_manifest
+from trackscan.progress import TextProgress
+from trackscan.tracking import describe_change
+
+
+def add_arguments(parser) -> None:
+    parser.add_argument("manifest", help="scan manifest (YAML)")
+    parser.add_argument("--out", metavar="DIR", default=None,
+                        help="output folder (default: reports/<scan name>/)")
+    parser.add_argument("--jobs", "-j", metavar="N", type=int, default=1,
+                        help="worker processes for the frame analyses (default 1)")
+
+
+def _bracket(ch, unit) -> str:
+    a, b = ch["bracket"]
+    return f"{a:.6g} → {b:.6g} {unit}".strip()
+
+
+def summary_lines(scan: dict) -> list:
+    """The printed summary of a scan.json dict, as lines."""
+    frames = scan["frames"]
+    elements = [a["element"] for a in frames[0]["atoms"]] if frames else []
+    coord = scan["scan"]["coordinate"]
+    unit = coord.get("unit", "")
+    lines = [f"scan {scan['scan']['name']}: {len(frames)} frames along {coord.get('label', '')}, "
+             f"{len(scan['structures'])} structure(s), {len(scan['changes'])} change(s)"]
+    if not scan["changes"]:
+        lines.append("no structural change inside the scan")
+    else:
+        rows = [("#", "frames", "bracket", "mechanism", "events")]
+        for n, ch in enumerate(scan["changes"], start=1):
+            rows.append((str(n), f"{ch['between'][0]}–{ch['between'][1]}", _bracket(ch, unit),
+                         ch["mechanism"], describe_change(ch, elements)))
+        widths = [max(len(r[i]) for r in rows) for i in range(4)]
+        for r in rows:
+            lines.append("  ".join(c.ljust(w) for c, w in zip(r[:4], widths)) + "  " + r[4])
+        for n, ch in enumerate(scan["changes"], start=1):
+            if ch.get("note"):
+                lines.append(f"note {n}: {ch['note']}")
+            if ch.get("structure_type_changed") is False:
+                lines.append(f"note {n}: the structure type is unchanged; only which atoms "
+                             "are linked differs")
+    for w in scan.get("early_warnings", []):
+        lines.append(f"early warning: {w['message']}")
+    return lines
+
+
+def run(args) -> int:
+    manifest = load_manifest(args.manifest)
+    out = Path(args.out) if args.out else Path("reports") / manifest.name
+    progress = TextProgress()
+    scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress)
+    progress.close()
+    path = out / "scan.json"
+    write_scan(path, scan)
+    for line in summary_lines(scan):
+        print(line)
+    print(f"wrote {os.fspath(path)}")
+    sys.stdout.flush()
+    return 0
