@@ -1,0 +1,294 @@
+"""Topology of one density frame: ``analyze_frame(grid, settings) -> FrameTopology``.
+
+Steps: fit the field (tricubic B-spline of the grid, core promolecule
+subtracted), place the nuclear attractors, search all other critical points
+(exhaustive grid seeds, Newton), check Poincare-Hopf and retry with denser
+seeds if it fails, trace bond paths and ring/cage connections, number the
+CPs deterministically and build the molecular graph.
+"""
+
+from __future__ import annotations
+
+import logging
+import time
+from dataclasses import dataclass, field as dc_field
+
+import networkx as nx
+import numpy as np
+
+from trackscan.elements import symbol
+from trackscan.grid import DensityGrid
+from trackscan.progress import report as progress_report
+from trackscan.settings import AnalysisSettings
+from trackscan.topology.connect import _key, connect_points
+from trackscan.topology.graph import build_graph
+from trackscan.topology.newton import merge_points
+from trackscan.topology.results import (COUNT_KEYS, ID_PREFIX, KINDS, BondPath, CriticalPoint,
+                                        fix, sig)
+from trackscan.topology.search import Region, describe_points, find_critical_points, nuclear_points
+
+__all__ = ["analyze_frame", "FrameTopology", "poincare_hopf"]
+
+logger = logging.getLogger(__name__)
+
+FIELD_LABEL = "tricubic B-spline of the grid"
+
+
+@dataclass(eq=False)
+class FrameTopology:
+    """Everything found in one density frame.
+
+    Attributes
+    ----------
+    critical_points : list of CriticalPoint
+        Ordered by kind (nuclear, non_nuclear, bond, ring, cage,
+        degenerate), then by id number.
+    bond_paths : list of BondPath
+        One per bond CP, in bond-CP order.
+    graph : networkx.MultiGraph
+        Molecular graph (see :mod:`trackscan.topology.graph`).
+    numbers : (n,) int array
+        Atomic numbers of all atoms of the grid.
+    positions : (n, 3) float array, bohr
+    grid_info : dict
+        ``shape``, ``origin_bohr``, ``axes_bohr``, ``spacing_bohr``, ``periodic``.
+    poincare_hopf : dict
+        ``{"value", "expected", "holds"}`` with value = n - b + r - c.
+    complete : bool
+        False when Poincare-Hopf still fails after the retries.
+    warnings : list of str
+    source : str or None
+        The file the grid came from.
+    field : str
+        Which field was analysed.
+    seeding_level : int
+        Seeding level at which the search stopped (0 = first pass).
+    timings : dict
+        Seconds per stage (not part of the JSON: it would break determinism).
+    """
+
+    critical_points: list
+    bond_paths: list
+    graph: nx.MultiGraph
+    numbers: np.ndarray
+    positions: np.ndarray
+    grid_info: dict
+    poincare_hopf: dict
+    complete: bool
+    warnings: list
+    source: str | None = None
+    field: str = FIELD_LABEL
+    seeding_level: int = 0
+    timings: dict = dc_field(default_factory=dict)
+
+    @property
+    def counts(self) -> dict:
+        """Numbers of CPs per kind: nuclear, non_nuclear, bond, ring, cage (and degenerate)."""
+        out = {k: 0 for k in KINDS}
+        for cp in self.critical_points:
+            out[cp.kind] += 1
+        return out
+
+    def by_kind(self, kind: str) -> list:
+        """The critical points of one kind."""
+        return [cp for cp in self.critical_points if cp.kind == kind]
+
+    def cp(self, cp_id: str) -> CriticalPoint:
+        """The critical point with this id (KeyError if none)."""
+        for cp in self.critical_points:
+            if cp.id == cp_id:
+                return cp
+        raise KeyError(cp_id)
+
+    def to_dict(self, *, index=None, value=None) -> dict:
+        """The frame object of the scan.json contract (DESIGN.md section 3).
+
+        Parameters
+        ----------
+        index : int, optional
+            Frame index in its scan.
+        value : float, optional
+            Scan coordinate value of the frame.
+        """
+        counts = self.counts
+        c = {k: counts[k] for k in COUNT_KEYS}
+        if counts["degenerate"]:
+            c["degenerate"] = counts["degenerate"]
+        return {
+            "index": index,
+            "value": None if value is None else sig(value),
+            "source": self.source,
+            "counts": c,
+            "poincare_hopf": dict(self.poincare_hopf),
+            "complete": bool(self.complete),
+            "warnings": list(self.warnings),
+            "critical_points": [cp.to_dict() for cp in self.critical_points],
+            "bond_paths": [bp.to_dict() for bp in self.bond_paths],
+            "atoms": [{"number": i + 1, "element": symbol(z), "Z": int(z),
+                       "position_bohr": fix(p)}
+                      for i, (z, p) in enumerate(zip(self.numbers, self.positions))],
+            "grid": dict(self.grid_info),
+            "field": self.field,
+        }
+
+
+def poincare_hopf(counts: dict, periodic: bool) -> dict:
+    """n - b + r - c against its expected value (1 isolated, 0 periodic).
+
+    References
+    ----------
+    .. [1] R. F. W. Bader, *Atoms in Molecules: A Quantum Theory*, Oxford
+       University Press (1990), section 2.4.
+    """
+    value = (counts["nuclear"] + counts["non_nuclear"] - counts["bond"] + counts["ring"]
+             - counts["cage"])
+    expected = 0 if periodic else 1
+    return {"value": int(value), "expected": expected,
+            "holds": bool(value == expected and counts.get("degenerate", 0) == 0)}
+
+
+def _pos_key(cp):
+    return tuple(np.round(cp.position, 4).tolist())
+
+
+def _grid_info(grid):
+    return {"shape": [int(n) for n in grid.shape], "origin_bohr": fix(grid.origin),
+            "axes_bohr": fix(grid.axes), "spacing_bohr": fix(grid.spacing),
+            "periodic": bool(grid.periodic)}
+
+
+def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *, field=None,
+                  progress=None) -> FrameTopology:
+    """Critical points, bond paths and molecular graph of one density grid.
+
+    Parameters
+    ----------
+    grid : DensityGrid
+        The frame.  Its samples seed the search; its atoms give the nuclear
+        attractors.
+    settings : AnalysisSettings, optional
+        Defaults to ``AnalysisSettings()``.
+    field : Field, optional
+        Analyse this field instead of the interpolated grid (e.g. an
+        analytic model sampled into `grid` for the seeds).
+    progress : callable, optional
+        Receives :class:`trackscan.progress.ProgressEvent` (task
+        ``"analyse frame"``, 3 steps: critical points, paths, done).
+
+    Returns
+    -------
+    FrameTopology
+
+    Notes
+    -----
+    If Poincare-Hopf fails, the search is repeated with denser seeds (up to
+    ``settings.seed_retries`` times); if it still fails the frame is
+    returned with ``complete = False`` and a warning is logged.
+    """
+    from trackscan.fields.grid_field import GridField
+
+    settings = settings or AnalysisSettings()
+    t0 = time.perf_counter()
+    timings = {}
+    warnings = []
+
+    stages = ("field", "critical points", "paths", "done")
+
+    def report(stage, frac=None):
+        progress_report(progress, "analyse frame", stages.index(stage), len(stages) - 1, stage)
+
+    report("field")
+    label = FIELD_LABEL
+    if field is None:
+        field = GridField(grid, subtract_promolecule=settings.subtract_promolecule)
+        if field.model is not None:
+            label = FIELD_LABEL + ", core promolecule subtracted"
+    else:
+        label = type(field).__name__
+    timings["field"] = time.perf_counter() - t0
+    region = Region(grid, settings.boundary_margin)
+    nuclear, skipped = nuclear_points(field, grid, region)
+    if skipped:
+        msg = f"atoms {skipped} are ghosts or outside the grid: no nuclear attractor placed"
+        warnings.append(msg)
+        logger.warning("%s: %s", grid.source or "grid", msg)
+
+    report("critical points")
+    t1 = time.perf_counter()
+    found = np.zeros((0, 3))
+    level = 0
+    cps = []
+    ph = None
+    for level in range(0, max(0, min(settings.seed_retries, 2)) + 1):
+        pts, n_seeds = find_critical_points(field, grid, settings, region, level=level)
+        allp = np.concatenate([found, pts])
+        g = np.linalg.norm(field.evaluate(allp, 1)[1], axis=1) if len(allp) else np.zeros(0)
+        found = allp[merge_points(allp, g, settings.xtol)]
+        cps = describe_points(field, found, settings)
+        counts = {k: 0 for k in KINDS}
+        for cp in nuclear + cps:
+            counts[cp.kind] += 1
+        ph = poincare_hopf(counts, grid.periodic)
+        logger.debug("seeding level %d: %d seeds, counts %s, PH %s", level, n_seeds, counts, ph)
+        if ph["holds"]:
+            break
+        if level < settings.seed_retries:
+            logger.info("%s: Poincare-Hopf gives %d (expected %d); retrying with denser seeds",
+                        grid.source or "grid", ph["value"], ph["expected"])
+    timings["critical_points"] = time.perf_counter() - t1
+    complete = bool(ph["holds"])
+    if not complete:
+        msg = (f"Poincare-Hopf fails: n - b + r - c = {ph['value']}, expected {ph['expected']} "
+               f"(after {level} retries); critical points may be missing")
+        warnings.append(msg)
+        logger.warning("%s: %s", grid.source or "grid", msg)
+
+    report("paths")
+    t2 = time.perf_counter()
+    by = {k: [cp for cp in cps if cp.kind == k] for k in KINDS}
+    attractors = sorted(by["non_nuclear"], key=_pos_key)
+    for i, cp in enumerate(attractors, 1):
+        cp.id = f"a{i}"
+    for cp in nuclear:
+        cp.id = f"n{cp.atoms[0]}"
+
+    def label_of(cp):
+        return cp.atoms[0] if cp.kind == "nuclear" else cp.id
+
+    paths = connect_points(field, nuclear, attractors, by["bond"], by["ring"], by["cage"],
+                           region=region, settings=settings, label_of=label_of)
+    timings["paths"] = time.perf_counter() - t2
+    # deterministic ids
+    order = sorted(range(len(by["bond"])),
+                   key=lambda i: (tuple(_key(a) if a is not None else (2, 0, "")
+                                        for a in by["bond"][i].atoms), _pos_key(by["bond"][i])))
+    bonds = [by["bond"][i] for i in order]
+    paths = [paths[i] for i in order]
+    for i, cp in enumerate(bonds, 1):
+        cp.id = f"b{i}"
+    rings_sorted = sorted(by["ring"], key=lambda cp: (tuple(sorted(_key(a) for a in cp.atoms)),
+                                                      _pos_key(cp)))
+    for i, cp in enumerate(rings_sorted, 1):
+        cp.id = f"r{i}"
+    cages = sorted(by["cage"], key=_pos_key)
+    for i, cp in enumerate(cages, 1):
+        cp.id = f"c{i}"
+        cp.rings = sorted((by["ring"][k].id for k in cp.rings), key=lambda s: int(s[1:]))
+    degenerate = sorted(by["degenerate"], key=_pos_key)
+    for i, cp in enumerate(degenerate, 1):
+        cp.id = f"{ID_PREFIX['degenerate']}{i}"
+    open_paths = [bp for bp in paths if not bp.complete]
+    if open_paths:
+        msg = (f"{len(open_paths)} bond path(s) do not reach an attractor at both ends: "
+               + ", ".join(bp.cp.id for bp in open_paths))
+        warnings.append(msg)
+        logger.warning("%s: %s", grid.source or "grid", msg)
+    all_cps = nuclear + attractors + bonds + rings_sorted + cages + degenerate
+    graph = build_graph(all_cps, paths, grid.numbers, complete=complete)
+    timings["total"] = time.perf_counter() - t0
+    report("done")
+    return FrameTopology(critical_points=all_cps, bond_paths=paths, graph=graph,
+                         numbers=np.array(grid.numbers), positions=np.array(grid.positions),
+                         grid_info=_grid_info(grid), poincare_hopf=ph, complete=complete,
+                         warnings=warnings, source=grid.source, field=label,
+                         seeding_level=level, timings=timings)
