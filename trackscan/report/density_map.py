@@ -2,7 +2,8 @@
 
 ρ on the plane comes from the frame's own cube file (its ``source`` in
 scan.json), read again with :func:`trackscan.io.cube.read_cube` and
-interpolated with cubic B-splines [1]_ (:func:`scipy.ndimage.map_coordinates`).
+interpolated with cubic B-splines [1]_ (the package's grid field, with the
+promolecule subtracted and added back, or :func:`scipy.ndimage.map_coordinates`).
 When the scan's density source is the built-in promolecular model and no
 cube is at hand, the model is evaluated exactly instead.  Otherwise the
 report says why there is no map.  Bond paths and CPs are drawn on top
@@ -19,7 +20,8 @@ from __future__ import annotations
 import logging
 
 import numpy as np
-from matplotlib.colors import LogNorm
+from matplotlib import colormaps
+from matplotlib.colors import ListedColormap, LogNorm
 from matplotlib.lines import Line2D
 from scipy import ndimage
 
@@ -43,10 +45,18 @@ MAP_POINTS = 161
 #: Margin (Å) around the projected involved atoms.
 MAP_MARGIN_ANGSTROM = 1.2
 _MIN_SIDE_ANGSTROM = 3.0
+# cividis (made for colour-vision deficiencies) without its pale yellow end,
+# which vanishes on white paper
+_CONTOUR_CMAP = ListedColormap(colormaps["cividis"](np.linspace(0.0, 0.78, 256)),
+                               name="cividis_dark")
 
 
 def density_on_plane(grid, points) -> np.ndarray:
-    """Density of a grid at 3-D points by cubic B-spline interpolation.
+    """Density of a grid at 3-D points, interpolated.
+
+    Uses the package's grid field (tricubic B-spline of ρ minus a
+    core-localised promolecule, added back exactly) when available, else a
+    cubic B-spline of ρ itself (:func:`scipy.ndimage.map_coordinates`).
 
     Parameters
     ----------
@@ -58,11 +68,18 @@ def density_on_plane(grid, points) -> np.ndarray:
     (N,) ndarray
         ρ (e/bohr³); NaN outside a non-periodic grid.
     """
-    frac = grid.fractional_index(np.asarray(points, float).reshape(-1, 3))
-    if grid.periodic:
-        vals = ndimage.map_coordinates(grid.values, frac.T, order=3, mode="grid-wrap")
+    pts = np.asarray(points, float).reshape(-1, 3)
+    frac = grid.fractional_index(pts)
+    try:
+        from trackscan.fields import GridField
+    except ImportError:
+        GridField = None
+    if GridField is not None:
+        vals = np.asarray(GridField(grid).evaluate(pts, 0)[0], float)
     else:
-        vals = ndimage.map_coordinates(grid.values, frac.T, order=3, mode="nearest")
+        mode = "grid-wrap" if grid.periodic else "nearest"
+        vals = ndimage.map_coordinates(grid.values, frac.T, order=3, mode=mode)
+    if not grid.periodic:
         shape = np.asarray(grid.shape) - 1
         outside = np.any((frac < -1e-9) | (frac > shape + 1e-9), axis=1)
         vals = np.where(outside, np.nan, vals)
@@ -192,7 +209,7 @@ def density_map_figure(scan: ScanData, change, number: int):
             continue
         if len(levels) > 1:
             mappable = ax.contour(uu, vv, np.where(np.isfinite(rho), rho, np.nan),
-                                  levels=levels, cmap="cividis", norm=norm, linewidths=0.8)
+                                  levels=levels, cmap=_CONTOUR_CMAP, norm=norm, linewidths=0.8)
         kinds |= {cp.get("kind") for cp in frame.get("critical_points") or []}
         draw_graph(ax, scan, frame, plane, involved=involved, changed=changed)
         ax.set_aspect("equal", adjustable="box")
@@ -204,8 +221,8 @@ def density_map_figure(scan: ScanData, change, number: int):
     axes[0].set_ylabel("in-plane v (Å)")
     handles = [Line2D([], [], color="#6b6b6b", lw=0.8, label="ρ contour (log levels 1, 2, 5 × 10ⁿ)")]
     fig.legend(handles=handles + legend_handles(kinds), loc="lower center", ncol=3,
-               fontsize=8, frameon=False, bbox_to_anchor=(0.5, -0.02))
-    fig.subplots_adjust(bottom=0.28)
+               fontsize=8, frameon=False, bbox_to_anchor=(0.5, 0.0))
+    fig.subplots_adjust(bottom=0.24)
     if mappable is not None:
         cbar = fig.colorbar(mappable, ax=list(axes), shrink=0.8, pad=0.02)
         cbar.set_label("ρ (e/bohr³)")

@@ -145,7 +145,7 @@ def graph_figure(scan: ScanData, change, number: int):
     for ax in axes:
         ax.set_aspect("equal", adjustable="box")
     fig.legend(handles=legend_handles(kinds), loc="lower center", ncol=3, fontsize=8,
-               frameon=False, bbox_to_anchor=(0.5, -0.02))
+               frameon=False, bbox_to_anchor=(0.5, 0.0))
     fig.subplots_adjust(bottom=0.22)
     labels = ", ".join(scan.label(n, before or after) for n in involved)
     return Figure(f"graph_change{number}", to_png(fig),

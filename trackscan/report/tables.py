@@ -121,6 +121,26 @@ def frame_table(scan: ScanData) -> Table:
                  "Poincaré–Hopf relation.")
 
 
+def _warning_details(w: dict) -> str:
+    parts = []
+    if w.get("frames"):
+        parts.append("frames " + ", ".join(str(x) for x in w["frames"]))
+    if w.get("indicators"):
+        parts.append("indicators: " + ", ".join(str(x).replace("_", " ") for x in w["indicators"]))
+    if isinstance(w.get("projected"), dict) and w["projected"]:
+        parts.append("projected zero: " + ", ".join(
+            f"{str(k).replace('_', ' ')} at {fmt_sig(v, 5)}" for k, v in sorted(w["projected"].items())))
+    if w.get("change_between"):
+        parts.append("followed by the change between frames "
+                     + " and ".join(str(x) for x in w["change_between"]))
+    known = {"message", "note", "text", "frames", "indicators", "projected", "change_between",
+             "atoms"}
+    rest = {k: v for k, v in w.items() if k not in known}
+    if rest:
+        parts.append(describe_value(rest))
+    return "; ".join(parts) or "—"
+
+
 def warning_table(scan: ScanData):
     """Early warnings of the scan as a table, or None when there are none."""
     warnings = scan.early_warnings
@@ -129,13 +149,12 @@ def warning_table(scan: ScanData):
     rows = []
     for w in warnings:
         if isinstance(w, dict):
-            text = w.get("message") or w.get("note") or w.get("text")
-            rest = {k: v for k, v in w.items() if k not in ("message", "note", "text")}
-            where = describe_value(rest) if rest else "—"
-            rows.append((str(text) if text else describe_value(w), where))
+            text = w.get("message") or w.get("note") or w.get("text") or describe_value(w)
+            atoms = scan.labels(w["atoms"]) if w.get("atoms") else "—"
+            rows.append((str(text), atoms, _warning_details(w)))
         else:
-            rows.append((describe_value(w), "—"))
-    return Table("early_warnings", ("Warning", "Details"), tuple(rows),
+            rows.append((describe_value(w), "—", "—"))
+    return Table("early_warnings", ("Warning", "Atoms", "Details"), tuple(rows),
                  "Signs that the structure is about to change (whether or not a change "
                  "happens inside the scan).")
 
