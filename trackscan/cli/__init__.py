@@ -27,6 +27,7 @@ COMMANDS = [
     ("check", "trackscan.cli.check", "validate a scan manifest and the consistency of its frames"),
     ("analyze", "trackscan.cli.analyze", "analyse all frames of a scan, track critical points and report structural changes"),
     ("report", "trackscan.cli.report", "write the change-point report (HTML, Markdown, CSV) of an analysed scan"),
+    ("demo", "trackscan.cli.demo", "run a demo scan end to end (built-in model; no QC code needed) into reports/"),
 ]
 
 EXIT_OK = 0
