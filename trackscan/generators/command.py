@@ -6,8 +6,10 @@ The manifest gives an argument list with placeholders::
 
 ``{value}`` is the coordinate value, ``{xyz}`` a geometry file trackscan
 writes beside the frame (needs ``generator.geometry``), ``{cube}`` where the
-program must write the density, ``{workdir}`` the frame's folder.  The list
-is passed to :func:`subprocess.run` as is -- never through a shell.  The
+program must write the density, ``{workdir}`` the frame's folder (for
+scratch files).  The program runs in the manifest's folder, so relative
+paths in the arguments mean what they mean in the YAML file.  The list is
+passed to :class:`subprocess.Popen` as is -- never through a shell.  The
 program writes to a temporary name; trackscan checks the cube (it must read
 cleanly and carry the expected atoms) and only then renames it into place,
 so a failure leaves the scan as it was.  Standard output and error go to a
@@ -82,8 +84,9 @@ class CommandGenerator(Generator):
     drive : CoordinateDrive or TrajectoryDrive, optional
         Geometry source, for ``{xyz}``.
     base_dir : Path, optional
-        Folder against which a relative program path (``./run.sh``,
-        ``bin/qc``) is resolved; usually the manifest's folder.
+        Folder the program runs in and against which a relative program
+        path (``./run.sh``, ``bin/qc``) is resolved; usually the manifest's
+        folder (default: the current folder).
     """
 
     def __init__(self, options: CommandConfig, drive=None, *, base_dir=None):
@@ -134,7 +137,7 @@ class CommandGenerator(Generator):
         where = f"at coordinate value {value:g}"
         logger.info("running %s", args)
         try:
-            status, out, err = _run(args, workdir, self.options.timeout)
+            status, out, err = _run(args, self.base_dir, self.options.timeout)
         except OSError as exc:
             self._discard(tmp)
             raise GeneratorError(f"cannot run {args[0]}: {exc}") from None
