@@ -16,6 +16,9 @@ def add_arguments(parser) -> None:
                         help="folder holding scan.json, or the scan.json file")
     parser.add_argument("--out", metavar="DIR", default=None,
                         help="report folder (default: the folder of scan.json)")
+    parser.add_argument("--source-dir", metavar="DIR", default=None,
+                        help="folder the frames' source paths are relative to, for the density "
+                             "maps (default: beside scan.json, then the current folder)")
     parser.add_argument("--no-date", action="store_true",
                         help="leave the date out of the report (byte-identical reruns)")
 
@@ -26,7 +29,8 @@ def run(args) -> int:
 
     src = Path(args.scan)
     out = Path(args.out) if args.out else (src if src.is_dir() else src.parent)
-    files = write_report(src, out, date=None if args.no_date else "today")
+    files = write_report(src, out, source_dir=args.source_dir,
+                         date=None if args.no_date else "today")
     print(f"report: {files.html}")
     print(f"        {files.markdown} ({len(files.images)} figures), {files.changes_csv.name}, "
           f"{files.critical_points_csv.name}")

@@ -40,6 +40,11 @@ def _header_table(scan: ScanData, date) -> Table:
             ("Density source", describe_value(source) if source else "not recorded"),
             ("Frames", str(len(scan.frames))), ("Changes", str(len(scan.changes))),
             ("trackscan version", __version__)]
+    analysed_with = scan.scan.get("trackscan_version")
+    if analysed_with and str(analysed_with) != __version__:
+        rows.append(("Analysed with trackscan", str(analysed_with)))
+    if "periodic" in scan.scan:
+        rows.append(("Periodic cell", describe_value(scan.scan["periodic"])))
     if scan.data.get("schema"):
         rows.append(("Result schema", str(scan.data["schema"])))
     if date:
@@ -68,10 +73,15 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
     Document
     """
     doc = Document(f"Structural changes along the scan “{scan.name}”")
-    blocks = [_header_table(scan, date)]
-    settings = tables.settings_table(scan)
-    if settings is not None:
-        blocks.append(settings)
+    blocks = []
+    if scan.scan.get("description"):
+        blocks.append(Paragraph(str(scan.scan["description"]).strip()))
+    blocks.append(_header_table(scan, date))
+    for key, caption in (("settings", "Analysis settings."),
+                         ("tracking", "Tracking settings (matching and change detection).")):
+        table = tables.settings_table(scan, key=key, caption=caption)
+        if table is not None:
+            blocks.append(table)
     doc.sections.append(Section("header", "Scan", tuple(blocks)))
 
     blocks = []

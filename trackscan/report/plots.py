@@ -13,7 +13,7 @@ from matplotlib.patches import Patch
 
 from trackscan.report.change_geometry import coalescing_pair
 from trackscan.report.document import Figure
-from trackscan.report.scan_data import CP_KINDS, ScanData
+from trackscan.report.scan_data import CP_KINDS, ScanData, frame_energy
 from trackscan.report.style import (BRACKET_STYLE, CP_STYLE, ESTIMATE_STYLE, LINE_COLOURS,
                                     LINE_STYLES, new_figure, to_png)
 from trackscan.units import BOHR_IN_ANGSTROM, HARTREE_IN_KCAL_PER_MOL
@@ -191,8 +191,7 @@ def bond_cp_plot(scan: ScanData):
 
 def energy_plot(scan: ScanData):
     """Energy (relative, kcal/mol) against the coordinate, or None without energies."""
-    pts = [(f["value"], f["energy"]) for f in scan.frames
-           if isinstance(f.get("energy"), (int, float)) and not isinstance(f.get("energy"), bool)]
+    pts = [(f["value"], frame_energy(f)) for f in scan.frames if frame_energy(f) is not None]
     if not pts:
         return None
     x = np.array([p[0] for p in pts])

@@ -17,7 +17,7 @@ from pathlib import Path
 from trackscan.elements import symbol
 from trackscan.errors import InputError, ParseError
 
-__all__ = ["ScanData", "load_scan", "CP_KINDS", "atom_label"]
+__all__ = ["ScanData", "load_scan", "CP_KINDS", "atom_label", "frame_energy", "cp_by_id"]
 
 #: Critical-point kinds of the contract, in the order the report lists them.
 CP_KINDS = ("nuclear", "non_nuclear", "bond", "ring", "cage", "degenerate")
@@ -42,12 +42,15 @@ class ScanData:
     data : dict
         The scan.json content (not modified).
     base_dir : pathlib.Path or None
-        Folder of the scan.json file; relative frame ``source`` paths are
-        resolved against it.  None when the scan came as a dict.
+        Folder of the scan.json file.  None when the scan came as a dict.
+    source_dir : pathlib.Path or None
+        Folder that relative frame ``source`` paths are relative to (the
+        scan manifest's folder), when known.
     """
 
     data: dict
     base_dir: Path | None = None
+    source_dir: Path | None = None
 
     # -- top-level parts ---------------------------------------------------
     @property
@@ -150,14 +153,36 @@ class ScanData:
         return sep.join(self.label(n, frame) for n in (numbers or []))
 
     def source_path(self, frame):
-        """Absolute path of a frame's ``source`` file, or None when it has none."""
+        """Path of a frame's ``source`` file, or None when it has none.
+
+        A relative path is looked up, in this order, under `source_dir`, the
+        folder of the manifest named by ``scan.manifest`` (relative to
+        scan.json), the folder of scan.json and the current folder; the first
+        existing file wins (else the first candidate is returned).
+        """
         source = frame.get("source")
         if not source or not isinstance(source, str):
             return None
         path = Path(source)
-        if not path.is_absolute() and self.base_dir is not None:
-            path = self.base_dir / path
-        return path
+        if path.is_absolute():
+            return path
+        bases = []
+        if self.source_dir is not None:
+            bases.append(Path(self.source_dir))
+        manifest = self.scan.get("manifest")
+        if isinstance(manifest, str) and manifest:
+            m = Path(manifest)
+            if not m.is_absolute() and self.base_dir is not None:
+                m = self.base_dir / m
+            bases.append(m.parent)
+        if self.base_dir is not None:
+            bases.append(self.base_dir)
+        bases.append(Path.cwd())
+        candidates = [b / path for b in bases]
+        for c in candidates:
+            if c.is_file():
+                return c
+        return candidates[0]
 
 
 def cp_by_id(frame, cp_id):
@@ -185,7 +210,16 @@ def _bracket(change):
     return None
 
 
-def load_scan(scan) -> ScanData:
+def frame_energy(frame):
+    """Energy of a frame in hartree (``energy_hartree`` or ``energy``), or None."""
+    for key in ("energy_hartree", "energy"):
+        e = frame.get(key)
+        if isinstance(e, (int, float)) and not isinstance(e, bool):
+            return float(e)
+    return None
+
+
+def load_scan(scan, *, source_dir=None) -> ScanData:
     """Load a scan result from a path (file or folder) or take a dict.
 
     Parameters
@@ -193,6 +227,8 @@ def load_scan(scan) -> ScanData:
     scan : str, os.PathLike or dict
         Path of a scan.json, a folder containing ``scan.json``, or the
         already-parsed content.
+    source_dir : str or os.PathLike, optional
+        Folder relative frame ``source`` paths refer to (the manifest's).
 
     Returns
     -------
@@ -222,7 +258,7 @@ def load_scan(scan) -> ScanData:
             raise ParseError(f"not valid JSON: {exc.msg}", path, exc.lineno) from None
         base_dir = path.resolve().parent
     _check(data, None if base_dir is None else base_dir / "scan.json")
-    return ScanData(data, base_dir)
+    return ScanData(data, base_dir, None if source_dir is None else Path(source_dir))
 
 
 def _check(data, path) -> None:

@@ -14,7 +14,7 @@ import json
 
 from trackscan.io.atomic import write_text_atomic
 from trackscan.report.document import Table
-from trackscan.report.scan_data import CP_KINDS, ScanData
+from trackscan.report.scan_data import CP_KINDS, ScanData, frame_energy
 from trackscan.report.wording import (change_decimals, change_words, coord_decimals,
                                       estimate_decimals, describe_value, fmt_coord,
                                       fmt_sig, fmt_uncertainty, resolution_words,
@@ -96,7 +96,7 @@ def frame_table(scan: ScanData) -> Table:
     frames = scan.frames
     values = [f.get("value") for f in frames]
     d = coord_decimals(*values)
-    has_energy = any(isinstance(f.get("energy"), (int, float)) for f in frames)
+    has_energy = any(frame_energy(f) is not None for f in frames)
     header = ["Frame", f"Coordinate{_unit(scan)}", "Structure", "n", "nna", "b", "r", "c",
               "deg.", "n − b + r − c", "Expected", "Holds"]
     if has_energy:
@@ -112,7 +112,7 @@ def frame_table(scan: ScanData) -> Table:
         row += [describe_value(ph.get("value")), describe_value(ph.get("expected")),
                 describe_value(ph.get("holds"))]
         if has_energy:
-            row.append(fmt_sig(f.get("energy"), 10))
+            row.append(fmt_sig(frame_energy(f), 10))
         row.append("; ".join(_frame_warnings(f, scan)) or "—")
         rows.append(tuple(row))
     return Table("frames", tuple(header), tuple(rows),
@@ -159,13 +159,13 @@ def warning_table(scan: ScanData):
                  "happens inside the scan).")
 
 
-def settings_table(scan: ScanData):
-    """Analysis settings as key/value rows, or None when scan.json has none."""
-    settings = scan.scan.get("settings")
+def settings_table(scan: ScanData, *, key: str = "settings", caption: str = "Analysis settings."):
+    """Settings ``scan.KEY`` as key/value rows, or None when scan.json has none."""
+    settings = scan.scan.get(key)
     if not isinstance(settings, dict) or not settings:
         return None
     rows = tuple((str(k), describe_value(v, 6)) for k, v in sorted(settings.items()))
-    return Table("settings", ("Setting", "Value"), rows, "Analysis settings.")
+    return Table(key, ("Setting", "Value"), rows, caption)
 
 
 def _csv_value(x):

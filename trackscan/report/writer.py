@@ -1,4 +1,4 @@
-"""Write the report folder: report.html, report.md and its PNGs, changes.csv, critical_points.csv."""
+"""Write the report folder: report.html, report.md with PNGs, changes.csv, critical_points.csv."""
 
 from __future__ import annotations
 
@@ -31,18 +31,21 @@ class ReportFiles:
     images: tuple
 
 
-def write_report(scan, out_dir, *, date="today", progress=None) -> ReportFiles:
+def write_report(scan, out_dir, *, source_dir=None, date="today", progress=None) -> ReportFiles:
     """Write the change-point report of a scan result.
 
     Parameters
     ----------
     scan : str, os.PathLike or dict
         A scan.json file, the folder holding it, or its parsed content.
-        Relative frame ``source`` paths are resolved against the file's
-        folder (for a dict: against the current directory).
+        Relative frame ``source`` paths are looked up under `source_dir`,
+        then beside scan.json, then in the current folder.
     out_dir : str or os.PathLike
         Report folder (created if missing).  Existing report files in it
         are replaced; other files are left alone.
+    source_dir : str or os.PathLike, optional, keyword-only
+        Folder the frames' relative ``source`` paths refer to (the scan
+        manifest's folder); the density maps re-read the cubes from there.
     date : str or None, keyword-only
         Date shown in the header: ``"today"`` (default, UTC, ISO format),
         any string, or None for no date (byte-identical reruns).
@@ -58,7 +61,7 @@ def write_report(scan, out_dir, *, date="today", progress=None) -> ReportFiles:
     trackscan.errors.InputError
         `scan` is not a readable scan result.
     """
-    data = load_scan(scan)
+    data = load_scan(scan, source_dir=source_dir)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     if date == "today":
