@@ -86,8 +86,7 @@ def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None
         frame["source"] = Path(os.path.relpath(entry.file, base)).as_posix()
         if entry.energy is not None:
             frame["energy_hartree"] = float(entry.energy)
-    label = manifest.coordinate.label
-    tracked = track_scan(frames, settings=tracking, coordinate=label)
+    tracked = track_scan(frames, settings=tracking, unit=manifest.coordinate.unit)
     logger.info("%s: %d frames, %d changes", manifest.name, len(frames), len(tracked["changes"]))
     scan = {
         "name": manifest.name,

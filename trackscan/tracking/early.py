@@ -16,6 +16,7 @@ import math
 import numpy as np
 
 from trackscan.tracking.changes import sig
+from trackscan.tracking.describe import atom_label
 
 __all__ = ["bond_series", "early_warnings"]
 
@@ -92,7 +93,7 @@ def _flag(s, name, j, horizon, sign):
     return None
 
 
-def early_warnings(series, changes, *, horizon, sign, coordinate="coordinate"):
+def early_warnings(series, changes, *, horizon, sign, unit="", elements=()):
     """Warnings for bond tracks whose indicators head for a fold.
 
     Parameters
@@ -105,8 +106,10 @@ def early_warnings(series, changes, *, horizon, sign, coordinate="coordinate"):
         Scan steps ahead within which an extrapolated zero is flagged.
     sign : {+1, -1}
         +1 when the scan runs to increasing values.
-    coordinate : str
-        Name of the scan coordinate, for messages.
+    unit : str
+        Unit of the scan coordinate, for messages.
+    elements : sequence of str
+        Element symbols of the atoms, for messages (``C1``).
 
     Returns
     -------
@@ -139,13 +142,14 @@ def early_warnings(series, changes, *, horizon, sign, coordinate="coordinate"):
                 follow = ch["between"]
                 break
         names = " and ".join(_LABELS[n] for n in sorted(kinds))
-        where = f"bond path {'–'.join(str(a) for a in s['atoms'])} ({s['track']})"
-        proj = ", ".join(f"{coordinate} ≈ {projected[n]:.4g}" for n in sorted(projected))
+        where = f"bond path {'–'.join(atom_label(a, elements) for a in s['atoms'])} ({s['track']})"
+        unit_s = f" {unit}" if unit else ""
+        proj = ", ".join(f"{projected[n]:.4g}{unit_s}" for n in sorted(projected))
         if follow is not None:
             msg = (f"{where}: {names} from frame {flagged[0]}; the change between frames "
                    f"{follow[0]} and {follow[1]} followed")
         else:
-            msg = (f"{where}: {names} from frame {flagged[0]} (projected zero at {proj}); "
+            msg = (f"{where}: {names} from frame {flagged[0]} (projected to vanish near {proj}); "
                    f"no structural change involving it occurs inside the scan")
         out.append({"track": s["track"], "atoms": s["atoms"], "frames": flagged,
                     "indicators": sorted(kinds), "projected": projected,

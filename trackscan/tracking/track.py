@@ -31,7 +31,7 @@ def _direction(values, setting):
     return "ascending"
 
 
-def track_scan(frames, *, settings=None, coordinate="coordinate"):
+def track_scan(frames, *, settings=None, unit=""):
     """Follow the critical points of a scan and find its structural changes.
 
     Parameters
@@ -41,8 +41,8 @@ def track_scan(frames, *, settings=None, coordinate="coordinate"):
         any order; they are sorted by their ``value``.
     settings : TrackingSettings, optional
         Defaults: ``TrackingSettings()``.
-    coordinate : str
-        Name of the scan coordinate, used in messages.
+    unit : str
+        Unit of the coordinate values, used in messages.
 
     Returns
     -------
@@ -107,7 +107,7 @@ def track_scan(frames, *, settings=None, coordinate="coordinate"):
 
     series = bond_series(views, tracks, ends_of)
     warnings = early_warnings(series, changes, horizon=settings.warning_horizon, sign=sign,
-                              coordinate=coordinate)
+                              unit=unit, elements=views[0].elements)
     out_frames = []
     for k, v in enumerate(views):
         f = copy.deepcopy(frames[v.listed])
