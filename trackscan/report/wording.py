@@ -174,26 +174,39 @@ def event_words(event, change, scan: ScanData) -> str:
 def _fold_partner(event, change, frame, what, scan):
     """Words for the lower-index CP a ring or cage CP coalesces with, or None.
 
-    Uses the event's ``fold_with`` track id when present; otherwise, in a
-    fold change, the partner kind implied by the other events.
+    The partner is the CP whose track is the event's ``fold_with`` (looked
+    up in the frame, then among the change's events); without it, in a fold
+    change, the partner kind implied by the other events.  Only the
+    higher-index member of a pair names its partner (a ring names its bond
+    CP, a cage its ring CP), so a pair is told once.
     """
     lower = "bond" if what == "ring" else "ring"
     track = event.get("fold_with")
+    partner_kind, partner_atoms = None, None
     if track is not None:
         for cp in (frame or {}).get("critical_points") or []:
             if cp.get("track") == track:
-                if cp.get("kind") != lower:
-                    return None        # the higher-index partner tells the story
-                if lower == "bond" and cp.get("atoms"):
-                    return f"bond CP of {scan.labels(cp['atoms'], frame)}"
-                return f"{lower} CP"
-        return f"{lower} CP"
-    kinds = {str(e.get("kind")) for e in change.get("events") or []}
-    partner_kinds = ({"bond_broken", "bond_formed"} if what == "ring"
-                     else {"ring_lost", "ring_formed"})
-    if change.get("mechanism") == "fold" and kinds & partner_kinds:
-        return f"{lower} CP"
-    return None
+                partner_kind, partner_atoms = cp.get("kind"), cp.get("atoms")
+                break
+        else:
+            for e in change.get("events") or []:
+                if e.get("track") == track:
+                    partner_kind = str(e.get("kind", "")).partition("_")[0]
+                    partner_atoms = e.get("atoms")
+                    break
+    if partner_kind is None:
+        kinds = {str(e.get("kind")).partition("_")[0] for e in change.get("events") or []}
+        if change.get("mechanism") != "fold" and track is None:
+            return None
+        higher = "cage" if what == "ring" else None
+        if higher in kinds:
+            return None
+        partner_kind = lower if (lower in kinds or track is not None) else None
+    if partner_kind != lower:
+        return None
+    if lower == "bond" and partner_atoms:
+        return f"bond CP of {scan.labels(partner_atoms, frame)}"
+    return f"{lower} CP"
 
 
 def resolution_words(change, scan: ScanData) -> str:
@@ -238,7 +251,8 @@ def resolution_words(change, scan: ScanData) -> str:
                 if frame is not None and _finite(frame.get("value")) and _finite(estimate):
                     reach = abs(frame["value"] - estimate) * margin ** (-2 / 3)
                     text += (f", i.e. to within ≈ {fmt_sig(reach, 2)} {scan.unit_symbol} of "
-                             f"the estimate (fold normal form)").replace("  ", " ")
+                             "the fold taken at the estimate (fold normal form)"
+                             ).replace("  ", " ")
         parts.append(text)
     if not res.get("pairs"):
         floors = res.get("rho_floor")

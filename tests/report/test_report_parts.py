@@ -1,0 +1,138 @@
+"""Parts of the report: events in words, view planes, fold pairs, density on a plane."""
+
+from __future__ import annotations
+
+import importlib.util
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from trackscan.promolecule import MODEL_LABEL, Promolecule, promolecule_grid
+from trackscan.report import load_scan
+from trackscan.report.change_geometry import best_plane, coalescing_pair, involved_atoms
+from trackscan.report.density_map import contour_levels, density_map_figure, density_on_plane
+from trackscan.report.tables import frame_table
+from trackscan.report.wording import change_words, coord_decimals, resolution_words
+
+
+def _fixture():
+    path = Path(__file__).with_name("report_fixtures.py")
+    spec = importlib.util.spec_from_file_location("report_fixtures", path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module.ring_opening_scan()
+
+
+def _with_change(change):
+    scan = _fixture()
+    scan["changes"] = [dict({"between": [1, 2], "bracket": [1.7, 1.9]}, **change)]
+    return load_scan(scan)
+
+
+@pytest.mark.parametrize("change, words", [
+    ({"mechanism": "conflict",
+      "events": [{"kind": "bond_switched", "atoms_before": [1, 3], "atoms_after": [2, 3]}]},
+     "bond path C1–C3 switches to C2–C3"),
+    ({"mechanism": "fold", "events": [{"kind": "bond_formed", "atoms": [1, 2]},
+                                      {"kind": "ring_formed"}]},
+     "bond path C1–C2 forms; ring CP is born together with the bond CP (fold)"),
+    ({"mechanism": "fold", "events": [{"kind": "ring_lost", "fold_with": "T-cage"},
+                                      {"kind": "cage_lost", "fold_with": "T-r9"}]},
+     "ring CP disappears; cage CP annihilates with the ring CP (fold)"),
+    ({"mechanism": "unresolved", "events": [{"kind": "ring_lost"}]}, "ring CP disappears"),
+    ({"mechanism": "mixed", "events": [{"kind": "attractor_formed", "atoms": [1, 2]}]},
+     "non-nuclear attractor between C1, C2 appears"),
+    ({"mechanism": "fold", "events": []}, "no events recorded"),
+])
+def test_events_in_plain_words(change, words):
+    scan = _with_change(change)
+    assert change_words(scan.changes[0], scan) == words
+
+
+def test_unresolved_change_and_incomplete_frame_are_warned_in_the_frame_table():
+    raw = _fixture()
+    raw["frames"][2]["complete"] = False
+    raw["changes"][0]["mechanism"] = "unresolved"
+    raw["changes"][0]["note"] = "pair below the resolution floor"
+    table = frame_table(load_scan(raw))
+    warn = {row[0]: row[-1] for row in table.rows}
+    assert "incomplete" in warn["2"]
+    assert "change 1 unresolved: pair below the resolution floor" in warn["1"]
+    assert "change 1 unresolved" in warn["2"] and warn["0"] == "—"
+
+
+def test_resolution_words_follow_the_fold_normal_form():
+    scan = load_scan(_fixture())
+    text = resolution_words(scan.changes[0], scan)
+    # d_min = d * margin**(-1/3) = 0.3 * 37.5**(-1/3) = 0.0896 bohr
+    assert "d ≈ 0.09 bohr" in text
+    # |s_k - s*| * margin**(-2/3) = |1.7 - 1.8312345| * 37.5**(-2/3) = 0.01174
+    assert "≈ 0.012 Å" in text
+
+
+def test_coordinate_decimals_keep_bracket_ends_apart():
+    assert coord_decimals(2.0, 2.1) == 3
+    assert coord_decimals(width=3e-6) == 8
+    assert f"{2.0712345:.{coord_decimals(width=1e-5)}f}" != f"{2.0712445:.{coord_decimals(width=1e-5)}f}"
+
+
+def test_best_plane_of_points_on_a_known_plane():
+    rng = np.random.default_rng(3)
+    normal = np.array([1.0, -2.0, 0.5]) / np.linalg.norm([1.0, -2.0, 0.5])
+    a = np.cross(normal, [0, 0, 1.0])
+    a /= np.linalg.norm(a)
+    b = np.cross(normal, a)
+    pts = 1.5 + rng.normal(size=(7, 1)) * a + rng.normal(size=(7, 1)) * b
+    plane = best_plane(pts)
+    assert abs(abs(plane.normal @ normal) - 1) < 1e-12
+    assert np.allclose(plane.height(pts), 0, atol=1e-12)
+    assert np.allclose(plane.lift(plane.project(pts)), pts, atol=1e-12)
+
+
+def test_plane_of_two_atoms_uses_context_for_the_second_direction():
+    plane = best_plane([[0, 0, 0], [2.0, 0, 0]], context=[[1.0, 0, 3.0]])
+    assert abs(plane.normal @ [0, 1.0, 0]) == pytest.approx(1.0)
+    assert plane.height([[1.0, 0, 3.0]])[0] == pytest.approx(0.0)
+
+
+def test_coalescing_pair_and_involved_atoms_of_the_fixture_fold():
+    scan = load_scan(_fixture())
+    a, b, side = coalescing_pair(scan, scan.changes[0])
+    assert {a["id"], b["id"]} == {"b3", "r1"} and side == "before"
+    assert involved_atoms(scan, scan.changes[0]) == [1, 2, 3]
+
+
+def test_density_on_plane_matches_the_analytic_model():
+    # reference: the analytic promolecular density (exact value at each point)
+    pos = np.array([[-1.6, 0, 0], [1.6, 0, 0], [0, 2.7, 0.0]])
+    grid = promolecule_grid([6, 6, 6], pos, spacing=0.15, margin=4.0)
+    model = Promolecule([6, 6, 6], pos)
+    plane = best_plane(pos)
+    pts = plane.lift(np.random.default_rng(0).uniform(-3, 3, (2000, 2)))
+    got, exact = density_on_plane(grid, pts), model.value(pts)
+    rel = np.abs(got - exact) / exact
+    core = np.linalg.norm(pts[:, None] - pos[None], axis=-1).min(axis=1) < 1.0
+    # tolerance of a contour map: levels 1, 2, 5 x 10^n are a factor >= 2 apart, so a
+    # few per cent moves no line visibly; inside 1 bohr of a nucleus (the cusp, where
+    # the innermost rings crowd anyway) only the bulk is checked
+    assert np.max(rel[~core]) < 0.05
+    assert np.median(rel) < 1e-3
+    assert np.isnan(density_on_plane(grid, [[50.0, 0, 0]]))[0]
+
+
+def test_contour_levels_are_one_two_five_decades():
+    levels = contour_levels([3e-4, 0.7])
+    assert list(levels) == pytest.approx([5e-4, 1e-3, 2e-3, 5e-3, 1e-2, 2e-2, 5e-2, 0.1, 0.2, 0.5])
+
+
+def test_density_map_falls_back_to_the_model_without_cubes():
+    raw = _fixture()
+    raw["scan"]["density_source"] = MODEL_LABEL
+    scan = load_scan(raw)
+    fig, note = density_map_figure(scan, scan.changes[0], 1)
+    assert note is None and fig is not None and fig.png.startswith(b"\x89PNG")
+    assert "evaluated exactly" in fig.caption
+    raw["scan"]["density_source"] = "cube files from elsewhere"
+    fig, note = density_map_figure(load_scan(raw), load_scan(raw).changes[0], 1)
+    assert fig is None and "frames/f01.cube" in note
