@@ -2,9 +2,11 @@
 
 from pathlib import Path
 
+import numpy as np
 import pytest
 
-from trackscan.errors import ConfigError
+from trackscan.errors import ConfigError, GeneratorError
+from trackscan.io.xyz import read_xyz
 from trackscan.generators import make_generator
 from trackscan.generators.config import (
     CommandConfig, PromoleculeConfig, PySCFConfig, parse_generator_config,
@@ -25,14 +27,28 @@ def parse(mapping, d):
     return parse_generator_config(mapping, path=d / "scan.yaml")
 
 
-def test_default_source_is_promolecule(scan_dir):
-    cfg = parse({"geometry": {"xyz": "start.xyz", "drive": {"distance": [1, 2]}}}, scan_dir)
+def test_promolecule_source(scan_dir):
+    cfg = parse({"geometry": {"xyz": "start.xyz", "drive": {"distance": [1, 2]}},
+                 "promolecule": None}, scan_dir)
     assert cfg.source == "promolecule"
     assert cfg.options == PromoleculeConfig()
     assert cfg.geometry.xyz == scan_dir / "start.xyz"
     assert cfg.geometry.drive.atoms == (1, 2)
     gen = make_generator(cfg)
     assert gen.is_model and "model" in gen.describe()
+
+
+def test_geometry_only_writes_geometry_and_refuses_densities(scan_dir):
+    cfg = parse({"geometry": {"xyz": "start.xyz", "drive": {"distance": [1, 2]}}}, scan_dir)
+    assert cfg.source == "none" and cfg.options is None
+    gen = make_generator(cfg)
+    assert not gen.is_model and "geometry only" in gen.describe()
+    with pytest.raises(GeneratorError, match="no density source"):
+        gen.generate(1.1, scan_dir / "frames" / "f.cube")
+    assert not (scan_dir / "frames" / "f.cube").exists()
+    geom = read_xyz(scan_dir / "frames" / "f.xyz")[0]
+    assert np.linalg.norm(geom.positions[1] - geom.positions[0]) * 0.529177210903 == \
+        pytest.approx(1.1, abs=1e-9)
 
 
 def test_pyscf_section(scan_dir):
@@ -60,6 +76,7 @@ def test_command_section(scan_dir):
       "promolecule": {}}, "generator", "one density source"),
     ({"geometri": {}}, "generator.geometri", "did you mean 'geometry'"),
     ({"promolecule": {}}, "generator.geometry", "missing"),
+    ({}, "generator", "give a density source"),
     ({"geometry": {"xyz": "start.xyz"}}, "generator.geometry.drive", "missing"),
     ({"geometry": {"xyz": "nope.xyz", "drive": {"distance": [1, 2]}}},
      "generator.geometry.xyz", "not found"),
@@ -122,7 +139,8 @@ def test_trajectory_values_measured_when_comments_lack_them(scan_dir):
 
 
 def test_drive_atoms_beyond_geometry_rejected_when_built(scan_dir):
-    cfg = parse({"geometry": {"xyz": "start.xyz", "drive": {"distance": [1, 7]}}}, scan_dir)
+    cfg = parse({"geometry": {"xyz": "start.xyz", "drive": {"distance": [1, 7]}},
+                 "promolecule": {}}, scan_dir)
     with pytest.raises(ConfigError) as info:
         make_generator(cfg)
     assert info.value.key == "generator.geometry.drive.distance"
@@ -130,6 +148,20 @@ def test_drive_atoms_beyond_geometry_rejected_when_built(scan_dir):
 
 def test_promolecule_rejects_heavy_elements(scan_dir):
     (scan_dir / "kbr.xyz").write_text("2\nc\nK 0 0 0\nBr 0 0 3\n")
-    cfg = parse({"geometry": {"xyz": "kbr.xyz", "drive": {"distance": [1, 2]}}}, scan_dir)
+    cfg = parse({"geometry": {"xyz": "kbr.xyz", "drive": {"distance": [1, 2]}},
+                 "promolecule": {}}, scan_dir)
     with pytest.raises(ConfigError, match="H-Ar"):
         make_generator(cfg)
+
+
+def test_coordinate_unit_applies_to_the_drive(scan_dir):
+    from trackscan.io.manifest import Coordinate
+
+    cfg = parse({"geometry": {"xyz": "start.xyz", "drive": {"distance": [1, 2]}},
+                 "promolecule": {}}, scan_dir)
+    gen = make_generator(cfg, coordinate=Coordinate("O-H", "bohr", "distance", (1, 2)))
+    p = gen.geometry(2.0).positions
+    assert np.linalg.norm(p[1] - p[0]) == pytest.approx(2.0, abs=1e-12)
+    gen = make_generator(cfg, coordinate=Coordinate("O-H", "angstrom", "distance", (1, 2)))
+    p = gen.geometry(2.0).positions
+    assert np.linalg.norm(p[1] - p[0]) * 0.529177210903 == pytest.approx(2.0, abs=1e-12)

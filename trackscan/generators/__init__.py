@@ -7,8 +7,10 @@ From a validated ``generator`` manifest section
     gen = make_generator(manifest.generator, coordinate=manifest.coordinate)
     frame = gen.generate(1.75, "frames/frame_p1.750000.cube")
 
-Sources: ``promolecule`` (built-in model, the default), ``pyscf`` (extra
-``qc``) and ``command`` (any external program).
+Sources: ``promolecule`` (the built-in model), ``pyscf`` (extra ``qc``) and
+``command`` (any external program).  A section with only ``geometry`` gives
+a :class:`GeometryOnly` generator: it writes geometries (for calculations run
+elsewhere) and refuses to make densities.
 """
 
 from __future__ import annotations
@@ -17,14 +19,14 @@ from pathlib import Path
 
 from trackscan.coordinates import measure
 from trackscan.errors import ConfigError
-from trackscan.generators.base import GeneratedFrame, Generator, sibling
+from trackscan.generators.base import GeneratedFrame, Generator, GeometryOnly, sibling
 from trackscan.generators.config import GeneratorConfig, GeometryConfig, parse_generator_config
 from trackscan.generators.geometry import (
     CoordinateDrive, TrajectoryDrive, from_internal_unit, value_from_comment,
 )
 from trackscan.io.xyz import read_xyz
 
-__all__ = ["make_generator", "make_drive", "Generator", "GeneratedFrame", "CoordinateDrive",
+__all__ = ["make_generator", "make_drive", "Generator", "GeneratedFrame", "GeometryOnly", "CoordinateDrive",
            "TrajectoryDrive", "parse_generator_config", "sibling"]
 
 _UNIT_ALIASES = {"angstrom": "angstrom", "å": "angstrom", "a": "angstrom", "ang": "angstrom",
@@ -118,8 +120,9 @@ def make_generator(config: GeneratorConfig, manifest_dir=None, *, coordinate=Non
     -------
     Generator
         :class:`~trackscan.generators.model.PromoleculeGenerator`,
-        :class:`~trackscan.generators.pyscf_density.PySCFGenerator` or
-        :class:`~trackscan.generators.command.CommandGenerator`.
+        :class:`~trackscan.generators.pyscf_density.PySCFGenerator`,
+        :class:`~trackscan.generators.command.CommandGenerator` or
+        :class:`GeometryOnly`.
     """
     manifest = config.manifest
     base_dir = Path(manifest_dir) if manifest_dir is not None else (
@@ -127,6 +130,8 @@ def make_generator(config: GeneratorConfig, manifest_dir=None, *, coordinate=Non
     drive = None
     if config.geometry is not None:
         drive = make_drive(config.geometry, coordinate=coordinate, manifest=manifest)
+    if config.source == "none":
+        return GeometryOnly(drive)
     if config.source == "promolecule":
         from trackscan.generators.model import PromoleculeGenerator
         _check_model_elements(drive, manifest)

@@ -21,7 +21,7 @@ from pathlib import Path
 from trackscan.errors import GeneratorError
 from trackscan.io.xyz import XYZFrame, write_xyz
 
-__all__ = ["Generator", "GeneratedFrame", "sibling"]
+__all__ = ["Generator", "GeneratedFrame", "GeometryOnly", "sibling"]
 
 _CUBE_SUFFIXES = (".cube.gz", ".cube.bz2", ".cube.xz", ".cube", ".cub")
 
@@ -145,3 +145,29 @@ class Generator:
 
     def __repr__(self) -> str:
         return f"<{type(self).__name__}: {self.describe()}>"
+
+
+class GeometryOnly(Generator):
+    """A geometry drive with no density source.
+
+    :meth:`geometry` and :meth:`write_geometry` work (e.g. to suggest new
+    frames to compute elsewhere); :meth:`generate` writes the geometry beside
+    the requested cube and raises, so a model density never stands in for a
+    missing quantum-chemical one.
+    """
+
+    def __init__(self, drive):
+        if drive is None:
+            raise ValueError("GeometryOnly needs a geometry drive")
+        super().__init__(drive)
+
+    def describe(self) -> str:
+        return f"geometry only ({self.drive.describe()}); densities come from cube files"
+
+    def generate(self, value: float, cube_path, workdir=None) -> GeneratedFrame:
+        xyz = sibling(cube_path, ".xyz")
+        self.write_geometry(value, xyz)
+        raise GeneratorError(
+            f"no density source in the manifest's generator section, so trackscan cannot make "
+            f"{Path(cube_path).name} at coordinate value {value:g}; the geometry is in {xyz} - "
+            "compute its density cube there, or add promolecule, pyscf or command")

@@ -11,8 +11,9 @@ a command that does not use ``{xyz}``)::
                                        #   optional move: [..] and unit: bohr|angstrom|degree|radian)
         # or:  trajectory: relaxed-scan.xyz   (frames carry "value=..." comments,
         #      or give values: [..], or the coordinate's definition is measured)
-      # one density source (default: the built-in promolecular model):
-      promolecule: {spacing: 0.15, margin: 4.0}          # bohr
+      # one density source; with none, trackscan only writes geometries
+      # (for calculations you run yourself) and never makes a density:
+      promolecule: {spacing: 0.15, margin: 4.0}          # built-in model; bohr
       pyscf: {method: HF, basis: 6-31g, charge: 0, spin: 0, spacing: 0.2, margin: 4.0}
       command: ["my-qc-wrapper", "--at", "{value}", "--geom", "{xyz}", "--out", "{cube}"]
       timeout: 600                     # seconds, for command only
@@ -130,8 +131,10 @@ class GeneratorConfig:
 
     Attributes
     ----------
-    source : {'promolecule', 'pyscf', 'command'}
-    options : PromoleculeConfig, PySCFConfig or CommandConfig
+    source : {'promolecule', 'pyscf', 'command', 'none'}
+        ``'none'``: a geometry drive only (no density source is given; a
+        model density is never substituted silently for a missing one).
+    options : PromoleculeConfig, PySCFConfig, CommandConfig or None
     geometry : GeometryConfig or None
     manifest : Path or None
         The manifest the section came from.
@@ -309,10 +312,15 @@ def parse_generator_config(mapping, *, path=None) -> GeneratorConfig:
     sources = [k for k in ("promolecule", "pyscf", "command") if k in mapping]
     if len(sources) > 1:
         chk.fail("generator", f"give one density source, not {' and '.join(sources)}")
-    source = sources[0] if sources else "promolecule"
+    source = sources[0] if sources else "none"
     if "timeout" in mapping and source != "command":
         chk.fail("generator.timeout", "a timeout applies to command only")
-    if source == "command":
+    if source == "none":
+        if geometry is None:
+            chk.fail("generator", "give a density source (promolecule, pyscf or command) "
+                                  "and/or a geometry")
+        options = None
+    elif source == "command":
         timeout = None
         if "timeout" in mapping and mapping["timeout"] is not None:
             timeout = chk.number(mapping["timeout"], "generator.timeout", positive=True)
