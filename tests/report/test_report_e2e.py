@@ -1,10 +1,11 @@
 """The report of a really analysed scan: promolecular C3 triangle, base stretched.
 
-Densities from the built-in promolecular model, written as cube files; each
-frame analysed by trackscan.topology, the scan tracked by trackscan.tracking
-(the same steps ``trackscan analyze`` runs), then the report written by the
-CLI.  The scan has two folds: the ring closes (bond CP C1–C3 and ring CP
-born together) and opens again (bond CP C1–C2 and ring CP annihilate).
+Densities from the built-in promolecular model, written as cube files and
+listed in a scan manifest; ``trackscan analyze`` analyses and tracks them and
+``trackscan report`` writes the report.  The ring opens in a fold: the bond
+CP of C1–C2 and the ring CP annihilate (near 1.65 Å on this model).  The manifest's energies are the nuclear
+repulsion energies of the frames (sum of Z_i Z_j / r_ij, hartree): a real
+property of each geometry, used here only to exercise the energy plot.
 """
 
 from __future__ import annotations
@@ -19,13 +20,10 @@ import pytest
 
 from trackscan.cli import main
 from trackscan.io.cube import write_cube
-from trackscan.promolecule import MODEL_LABEL, promolecule_grid
-from trackscan.settings import AnalysisSettings
-from trackscan.topology import analyze_frame
-from trackscan.tracking import track_scan
+from trackscan.promolecule import promolecule_grid
 from trackscan.units import ANGSTROM_IN_BOHR
 
-VALUES = (1.2, 1.3, 1.4, 1.5, 1.6, 1.7)     # C1–C2 distance, Å
+VALUES = (1.3, 1.4, 1.5, 1.6, 1.7, 1.8)     # C1–C2 distance, Å
 APEX = 1.25                                  # height of C3 over the C1–C2 midpoint, Å
 
 
@@ -39,38 +37,42 @@ def _load(name):
 R = _load("report_reading")
 
 
+def _nuclear_repulsion(z, pos):
+    pos = np.asarray(pos, float)
+    r = np.linalg.norm(pos[:, None] - pos[None], axis=-1)
+    i, j = np.triu_indices(len(z), 1)
+    return float(np.sum(np.outer(z, z)[i, j] / r[i, j]))
+
+
 @pytest.fixture(scope="module")
 def analysed(tmp_path_factory):
     root = tmp_path_factory.mktemp("c3scan")
-    settings = AnalysisSettings()
-    frames = []
+    lines = ["name: c3-triangle-stretch",
+             "coordinate: {label: C1–C2 distance, distance: [1, 2]}",
+             "frames:"]
     for i, d in enumerate(VALUES):
         x = d * ANGSTROM_IN_BOHR / 2
         pos = [[-x, 0.0, 0.0], [x, 0.0, 0.0], [0.0, APEX * ANGSTROM_IN_BOHR, 0.0]]
         grid = promolecule_grid([6, 6, 6], pos, spacing=0.2, margin=3.0)
         write_cube(root / "frames" / f"f{i:02d}.cube", grid)
-        frame = analyze_frame(grid, settings).to_dict()
-        frame.update(index=i, value=d, source=f"frames/f{i:02d}.cube")
-        frames.append(frame)
-    tracked = track_scan(frames, coordinate="C1–C2 distance")
-    scan = {"schema": "trackscan.scan/1",
-            "scan": {"name": "c3-triangle-stretch",
-                     "coordinate": {"label": "C1–C2 distance", "unit": "angstrom"},
-                     "density_source": MODEL_LABEL, "settings": settings.to_dict()},
-            "frames": tracked["frames"], "changes": tracked["changes"],
-            "early_warnings": tracked["early_warnings"]}
-    (root / "scan.json").write_text(json.dumps(scan, sort_keys=True), encoding="utf-8")
-    assert main(["report", str(root), "--out", str(root / "report")]) == 0
-    return scan, root / "report"
+        lines.append(f"  - {{file: frames/f{i:02d}.cube, "
+                     f"energy: {_nuclear_repulsion([6, 6, 6], pos)!r}}}")
+    (root / "scan.yaml").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    out = root / "out"
+    assert main(["analyze", str(root / "scan.yaml"), "--out", str(out)]) == 0
+    assert main(["report", str(out), "--out", str(out / "report"),
+                 "--source-dir", str(root)]) == 0
+    scan = json.loads((out / "scan.json").read_text(encoding="utf-8"))
+    return scan, out / "report"
 
 
-def test_analysed_scan_has_the_two_folds(analysed):
+def test_analysed_scan_has_one_fold(analysed):
     scan, _ = analysed
-    # independent of the report: Poincaré–Hopf in every frame, and two fold changes
+    # independent of the report: Poincaré–Hopf in every frame, and one fold
     for f in scan["frames"]:
         c = f["counts"]
         assert c["nuclear"] + c["non_nuclear"] - c["bond"] + c["ring"] - c["cage"] == 1
-    assert [ch["mechanism"] for ch in scan["changes"]] == ["fold", "fold"]
+    assert [ch["mechanism"] for ch in scan["changes"]] == ["fold"]
 
 
 def test_report_tables_equal_scan_json(analysed):
@@ -83,11 +85,13 @@ def test_report_tables_equal_scan_json(analysed):
         assert R.shown_equals(lo, ch["bracket"][0]) and R.shown_equals(hi, ch["bracket"][1])
         assert R.shown_equals(R.numbers(row[2])[0], ch["estimate"])
         assert row[4] == ch["mechanism"]
-    assert "ring CP (ring C1–C2–C3) is born together with the bond CP" in rows[0][5]
-    assert "bond path C1–C2 breaks" in rows[1][5]
-    frames = page.tables["table-frames"]["rows"]
-    for row, f in zip(frames, scan["frames"]):
+    assert "bond path C1–C2 breaks" in rows[0][5]
+    assert "annihilates with the bond CP of C1–C2 (fold)" in rows[0][5]
+    frames = page.tables["table-frames"]
+    energy_col = frames["header"].index("Energy (hartree)")
+    for row, f in zip(frames["rows"], scan["frames"]):
         assert R.shown_equals(row[1], f["value"])
+        assert R.shown_equals(row[energy_col], f["energy_hartree"])
         assert [int(x) for x in row[3:6]] == [f["counts"][k] for k in ("nuclear", "non_nuclear",
                                                                       "bond")]
     md = R.read_markdown_tables((out / "report.md").read_text(encoding="utf-8"))
@@ -106,7 +110,7 @@ def test_every_change_has_graphs_and_a_density_map_from_its_cubes(analysed):
     assert "cubic-spline interpolation" in html
     for name in ("cp_counts", "bond_cp_properties", "fold_distance"):
         assert (out / f"{name}.png").is_file()
-    assert not (out / "energy.png").exists()        # the model has no energies
+    assert (out / "energy.png").is_file()           # the manifest gives energies
 
 
 def test_critical_points_csv_has_every_cp_with_its_track(analysed):
@@ -116,6 +120,7 @@ def test_critical_points_csv_has_every_cp_with_its_track(analysed):
     assert len(rows) == sum(len(f["critical_points"]) for f in scan["frames"])
     assert all(r["track"] for r in rows)
     nuclei = [r for r in rows if r["kind"] == "nuclear" and r["frame"] == "0"]
+    assert float(nuclei[0]["coordinate"]) == pytest.approx(VALUES[0], abs=1e-9)
     x = sorted(float(r["x_angstrom"]) for r in nuclei)
     assert x[0] == pytest.approx(-VALUES[0] / 2, abs=1e-6)
     assert x[-1] == pytest.approx(VALUES[0] / 2, abs=1e-6)

@@ -27,9 +27,9 @@ from scipy import ndimage
 
 from trackscan.errors import TrackscanError
 from trackscan.report.change_geometry import (Plane, atom_positions, change_plane,
-                                              involved_atoms, vanishing_tracks)
+                                              involved_atoms)
 from trackscan.report.document import Figure
-from trackscan.report.graphs import draw_graph, legend_handles
+from trackscan.report.graphs import changed_keys, draw_graph, legend_handles
 from trackscan.report.scan_data import ScanData
 from trackscan.report.style import new_figure, to_png
 from trackscan.report.wording import change_decimals, fmt_coord
@@ -174,8 +174,7 @@ def density_map_figure(scan: ScanData, change, number: int):
     uu, vv = np.meshgrid(u, v)
     pts = plane.lift(np.stack([uu.ravel(), vv.ravel()], axis=1) * ANGSTROM_IN_BOHR)
     involved = involved_atoms(scan, change)
-    lost, born = vanishing_tracks(scan, change)
-    changed = {cp.get("track", cp.get("id")) for cp in lost + born}
+    changed = changed_keys(scan, change)
     panels, missing, origins = [], [], set()
     for frame, side in ((before, "before"), (after, "after")):
         if frame is None:

@@ -18,7 +18,7 @@ from trackscan.report.style import CP_STYLE, OKABE_ITO, new_figure, to_png
 from trackscan.report.wording import change_decimals, fmt_coord
 from trackscan.units import BOHR_IN_ANGSTROM
 
-__all__ = ["draw_graph", "graph_figure", "legend_handles"]
+__all__ = ["draw_graph", "graph_figure", "legend_handles", "changed_keys"]
 
 PATH_COLOUR = "#555555"
 CHANGED_COLOUR = OKABE_ITO["vermillion"]
@@ -26,6 +26,18 @@ CHANGED_COLOUR = OKABE_ITO["vermillion"]
 
 def _cp_key(cp):
     return cp.get("track", cp.get("id"))
+
+
+def changed_keys(scan: ScanData, change) -> set:
+    """Track (or id) keys of the CPs a change concerns.
+
+    The CPs that appear or vanish, and those its events name by ``track``
+    (e.g. the bond CP of a bond path that switches ends in a conflict).
+    """
+    lost, born = vanishing_tracks(scan, change)
+    keys = {_cp_key(cp) for cp in lost + born}
+    keys |= {e["track"] for e in change.get("events") or [] if e.get("track") is not None}
+    return keys
 
 
 def draw_graph(ax, scan: ScanData, frame, plane: Plane, *, involved=(), changed=()) -> None:
@@ -100,7 +112,7 @@ def legend_handles(kinds) -> list:
                Line2D([], [], color=PATH_COLOUR, lw=1.2, ls=":",
                       label="bond path not reaching an attractor"),
                Line2D([], [], color=CHANGED_COLOUR, lw=2.4,
-                      label="bond path that breaks or forms")]
+                      label="bond path that breaks, forms or switches")]
     for kind in ("bond", "ring", "cage", "non_nuclear", "degenerate"):
         if kind in kinds:
             s = CP_STYLE[kind]
@@ -109,7 +121,7 @@ def legend_handles(kinds) -> list:
                                   ms=np.sqrt(s["size"]), label=s["label"]))
     handles.append(Line2D([], [], marker="o", ls="none", markerfacecolor="none",
                           markeredgecolor=CHANGED_COLOUR, ms=12, markeredgewidth=1.6,
-                          label="CP that appears or vanishes"))
+                          label="CP that appears, vanishes or switches"))
     return handles
 
 
@@ -123,8 +135,7 @@ def graph_figure(scan: ScanData, change, number: int):
     if plane is None:
         return None
     involved = involved_atoms(scan, change)
-    lost, born = vanishing_tracks(scan, change)
-    changed = {_cp_key(cp) for cp in lost + born}
+    changed = changed_keys(scan, change)
     fig = new_figure(10.0, 4.6)
     axes = fig.subplots(1, 2)
     kinds = set()

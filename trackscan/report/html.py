@@ -29,6 +29,7 @@ th, td { border: 1px solid var(--rule); padding: .25em .5em; vertical-align: top
          text-align: left; }
 th { background: #eef4f9; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+td.range { font-variant-numeric: tabular-nums; white-space: nowrap; }
 .scroll { overflow-x: auto; }
 figure { margin: 1em 0 1.6em; break-inside: avoid; page-break-inside: avoid; }
 figure img { max-width: 100%; height: auto; border: 1px solid var(--rule); }
@@ -61,6 +62,11 @@ def _is_number(text: str) -> bool:
         return False
 
 
+def _is_range(text: str) -> bool:
+    """A coordinate range or an estimate with its uncertainty (kept on one line)."""
+    return ("→" in text or "±" in text) and len(text) < 48
+
+
 def _table(t: Table) -> str:
     out = [f'<div class="scroll"><table id="table-{escape(t.key)}">']
     if t.caption:
@@ -69,7 +75,9 @@ def _table(t: Table) -> str:
                + "</tr></thead><tbody>")
     for row in t.rows:
         cells = "".join(
-            f'<td class="num">{escape(c)}</td>' if _is_number(c) else f"<td>{escape(c)}</td>"
+            f'<td class="num">{escape(c)}</td>' if _is_number(c)
+            else f'<td class="range">{escape(c)}</td>' if _is_range(c)
+            else f"<td>{escape(c)}</td>"
             for c in row)
         out.append(f"<tr>{cells}</tr>")
     out.append("</tbody></table></div>")

@@ -91,14 +91,27 @@ def _frame_warnings(frame, scan: ScanData) -> list:
     return out
 
 
+def _spacing(frame):
+    """Grid spacing (bohr) of a frame: one number, or the three axes when they differ."""
+    h = (frame.get("resolution") or {}).get("spacing_bohr")
+    if h is None:
+        h = (frame.get("grid") or {}).get("spacing_bohr")
+    if isinstance(h, (list, tuple)) and h and all(isinstance(x, (int, float)) for x in h):
+        return h[0] if max(h) - min(h) <= 1e-9 * max(abs(x) for x in h) else list(h)
+    return h if isinstance(h, (int, float)) else None
+
+
 def frame_table(scan: ScanData) -> Table:
     """One row per frame: counts, Poincaré–Hopf, energy, warnings."""
     frames = scan.frames
     values = [f.get("value") for f in frames]
     d = coord_decimals(*values)
     has_energy = any(frame_energy(f) is not None for f in frames)
+    has_spacing = any(_spacing(f) is not None for f in frames)
     header = ["Frame", f"Coordinate{_unit(scan)}", "Structure", "n", "nna", "b", "r", "c",
               "deg.", "n − b + r − c", "Expected", "Holds"]
+    if has_spacing:
+        header.append("Grid spacing (bohr)")
     if has_energy:
         header.append("Energy (hartree)")
     header.append("Warnings")
@@ -111,6 +124,8 @@ def frame_table(scan: ScanData) -> Table:
         row += [describe_value(counts.get(k, 0 if counts else None)) for k in CP_KINDS]
         row += [describe_value(ph.get("value")), describe_value(ph.get("expected")),
                 describe_value(ph.get("holds"))]
+        if has_spacing:
+            row.append(describe_value(_spacing(f), 4))
         if has_energy:
             row.append(fmt_sig(frame_energy(f), 10))
         row.append("; ".join(_frame_warnings(f, scan)) or "—")
