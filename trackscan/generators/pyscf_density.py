@@ -1,7 +1,8 @@
 """Generator of SCF densities with PySCF (the ``qc`` extra).
 
 For each coordinate value: build the molecule from the geometry drive, run
-HF or Kohn–Sham DFT (guess: the previous frame's density matrix), write the
+HF or Kohn–Sham DFT (guess: the density matrix converged at the nearest
+coordinate value so far, as refinement jumps about inside a bracket), write the
 density cube with :func:`pyscf.tools.cubegen.density` at the chosen spacing
 and margin, and keep the converged density matrix, energy and cube in a
 cache keyed by a hash of the geometry and settings, so a rerun costs
@@ -50,6 +51,7 @@ logger = logging.getLogger(__name__)
 
 _HF = ("HF", "RHF", "UHF", "ROHF")
 _CACHE_TAG = "trackscan-pyscf-density/1"
+_KEEP_GUESSES = 32
 
 
 class MissingPySCFError(GeneratorError, ImportError):
@@ -113,7 +115,7 @@ class PySCFGenerator(Generator):
             self._xc = options.method
         first = drive.base if hasattr(drive, "base") else drive.geometry(drive.values[0])
         self._build(first, key_errors=True)
-        self._last_dm = None
+        self._dms = {}     # coordinate value -> converged density matrix (SCF guesses)
 
     # -- description and keys -------------------------------------------
     def describe(self) -> str:
@@ -166,17 +168,24 @@ class PySCFGenerator(Generator):
         mf.verbose = 0
         return mf
 
-    def _guess(self, mf):
-        dm = self._last_dm
-        if dm is None:
+    def _remember(self, value, dm):
+        self._dms[float(value)] = dm
+        while len(self._dms) > _KEEP_GUESSES:
+            self._dms.pop(next(iter(self._dms)))
+
+    def _guess(self, mf, value):
+        """Density matrix of the nearest coordinate value computed so far."""
+        if not self._dms:
             return None
+        near = min(self._dms, key=lambda v: (abs(v - value), v))
+        dm = self._dms[near]
         nao = mf.mol.nao_nr()
         want = (2, nao, nao) if self._kind in ("UHF", "UKS") else (nao, nao)
         return dm if dm.shape == want else None
 
     def _scf(self, mol, value, xyz, geom):
         mf = self._mean_field(mol)
-        e = mf.kernel(dm0=self._guess(mf))
+        e = mf.kernel(dm0=self._guess(mf, value))
         if not mf.converged:
             logger.info("SCF at %g did not converge in %d cycles; second-order retry",
                         value, self.options.max_cycle)
@@ -217,7 +226,7 @@ class PySCFGenerator(Generator):
                 logger.warning("ignoring broken cached cube %s", cached_cube)
             else:
                 _place(cached_cube, cube_path)
-                self._last_dm = dm
+                self._remember(value, dm)
                 logger.info("PySCF frame at %g taken from the cache (%s)", value, key)
                 return GeneratedFrame(cube_path, float(value), energy, True, xyz)
         mol = self._build(geom)
@@ -228,7 +237,7 @@ class PySCFGenerator(Generator):
             np.savez(buf, dm=dm, energy=energy, numbers=geom.numbers, positions=geom.positions,
                      settings=json.dumps(self._settings(), sort_keys=True))
             write_bytes_atomic(npz, buf.getvalue())
-        self._last_dm = dm
+        self._remember(value, dm)
         tmp = cache / f".partial-{key}.cube"
         try:
             density_dm = dm[0] + dm[1] if np.ndim(dm) == 3 else dm
