@@ -244,12 +244,12 @@ class PySCFGenerator(Generator):
             cubegen.density(mol, str(tmp), density_dm, resolution=self.options.spacing,
                             margin=self.options.margin)
             read_cube(tmp)
-        except InputError as exc:
-            raise GeneratorError(f"PySCF wrote a broken cube at value {value:g}: "
-                                 f"{exc.message}") from None
-        except BaseException:
+        except BaseException as exc:
             with contextlib.suppress(FileNotFoundError):
                 tmp.unlink()
+            if isinstance(exc, InputError):
+                raise GeneratorError(f"PySCF wrote a broken cube at value {value:g}: "
+                                     f"{exc.message}") from None
             raise
         os.replace(tmp, cached_cube)
         _place(cached_cube, cube_path)
