@@ -123,12 +123,13 @@ def frame_density(scan: ScanData, frame):
                 try:
                     grid = read_cube(path)
                 except (TrackscanError, OSError, ValueError) as exc:
-                    reason = f"its cube could not be read ({exc})"
+                    reason = f"cube could not be read ({exc})"
                 else:
                     return (lambda pts: density_on_plane(grid, pts)), \
                         f"cube {path.name}, cubic-spline interpolation"
         else:
-            reason = f"its cube {frame.get('source')} is not available"
+            reason = ("cube not found (relative paths are looked up in the manifest's "
+                      "folder, given as source_dir or --source-dir, then beside scan.json)")
     if _is_model(scan) and frame.get("atoms"):
         try:
             from trackscan.promolecule import Promolecule
@@ -178,19 +179,24 @@ def density_map_figure(scan: ScanData, change, number: int):
     panels, missing, origins = [], [], set()
     for frame, side in ((before, "before"), (after, "after")):
         if frame is None:
-            missing.append(f"the frame {side} the change is not in scan.json")
+            missing.append((f"the frame {side} the change", "not in scan.json"))
             panels.append(None)
             continue
         rho, origin = frame_density(scan, frame)
         if rho is None:
-            missing.append(f"frame {frame.get('index')} ({side}): {origin}")
+            src = f", {frame['source']}" if frame.get("source") else ""
+            missing.append((f"frame {frame.get('index')} ({side}{src})", origin))
             panels.append(None)
             continue
         origins.add(origin)
         panels.append(np.asarray(rho(pts), float).reshape(uu.shape))
     note = None
     if missing:
-        note = f"Change {number}: no density map for " + "; ".join(missing) + "."
+        by_reason = {}
+        for who, why in missing:
+            by_reason.setdefault(why, []).append(who)
+        note = f"Change {number}: no density map for " + "; ".join(
+            f"{' and '.join(who)}: {why}" for why, who in by_reason.items()) + "."
     if all(p is None for p in panels):
         return None, note
     finite = np.concatenate([p[np.isfinite(p)] for p in panels if p is not None])
