@@ -213,7 +213,8 @@ def density_map_figure(scan: ScanData, change, number: int):
             ax.set_axis_off()
             continue
         if len(levels) > 1:
-            mappable = ax.contour(uu, vv, np.where(np.isfinite(rho), rho, np.nan),
+            # interpolation can undershoot to <= 0 far out; no log contour lives there
+            mappable = ax.contour(uu, vv, np.where(np.isfinite(rho) & (rho > 0), rho, np.nan),
                                   levels=levels, cmap=_CONTOUR_CMAP, norm=norm, linewidths=0.8)
         kinds |= {cp.get("kind") for cp in frame.get("critical_points") or []}
         draw_graph(ax, scan, frame, plane, involved=involved, changed=changed)

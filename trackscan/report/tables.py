@@ -55,8 +55,11 @@ def summary_table(scan: ScanData) -> Table:
         etxt = fmt_coord(est, estimate_decimals(change))
         if unc is not None and etxt != "—":
             etxt += f" ± {fmt_uncertainty(unc)} ({origin})"
+        mech = str(change.get("mechanism") or "—")
+        if change.get("mechanism_candidate") and change["mechanism_candidate"] != mech:
+            mech += f" (looks like {change['mechanism_candidate']})"
         rows.append((str(k), btxt, etxt, str(change.get("estimate_method") or "—"),
-                     str(change.get("mechanism") or "—"), change_words(change, scan),
+                     mech, change_words(change, scan),
                      describe_value(change.get("evaluations"))))
     return Table("summary", header, tuple(rows),
                  "Structural changes along the scan. The bracket runs from the last frame "

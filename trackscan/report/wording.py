@@ -14,9 +14,6 @@ __all__ = ["fmt_coord", "coord_decimals", "change_decimals", "estimate_decimals"
            "fmt_sig", "fmt_uncertainty", "event_words",
            "change_words", "resolution_words", "describe_value", "pretty_key", "uncertainty_of"]
 
-_DASH = "–"
-
-
 def coord_decimals(*values, width=None) -> int:
     """Decimals needed to show coordinate values so a bracket's ends stay distinct.
 
