@@ -32,6 +32,9 @@ R_INNER = 2.0
 R_OUTER = 4.0
 """Radius (bohr) beyond which each free atom is dropped (default)."""
 
+SOFTEN = 0.0
+"""Cusp-rounding length (bohr) of the subtracted free atoms (default)."""
+
 # Grid values (on_grid) come from a radial table with this step (bohr),
 # linearly interpolated, except within _EXACT_RADIUS of the nucleus where the
 # cusp makes the table inaccurate; the table error elsewhere is below 1e-8.
@@ -64,6 +67,12 @@ class LocalizedPromolecule:
     positions : (n, 3) array_like, bohr
     r_in, r_out : float, bohr
         Switching radii, ``0 <= r_in < r_out``.
+    soften : float, bohr
+        Each free atom is evaluated at ``sqrt(r^2 + soften^2)`` instead of
+        ``r``: this rounds off the nuclear cusp within about ``2 * soften``
+        and leaves the density unchanged beyond.  Densities from Gaussian
+        basis sets have no cusp, so subtracting a cusped model would put a
+        kink into the remainder that the spline rings on.
     include : (n,) array_like of bool, optional
         Which atoms to model (e.g. not those with an effective core).
     cell : (3, 3) array_like, optional
@@ -77,7 +86,7 @@ class LocalizedPromolecule:
     """
 
     def __init__(self, numbers, positions, *, r_in: float = R_INNER, r_out: float = R_OUTER,
-                 include=None, cell=None):
+                 soften: float = SOFTEN, include=None, cell=None):
         if not 0 <= r_in < r_out:
             raise ValueError(f"need 0 <= r_in < r_out, got {r_in}, {r_out}")
         numbers = np.asarray(numbers, dtype=np.int64).reshape(-1)
@@ -100,6 +109,7 @@ class LocalizedPromolecule:
             numbers, positions = np.concatenate(imgs_z), np.concatenate(imgs_p)
         self.numbers = numbers
         self.positions = positions
+        self.soften = float(soften)
         self.r_in = float(r_in)
         self.r_out = float(r_out)
         self._atoms = [Promolecule([z], [p]) for z, p in zip(numbers, positions)]
@@ -110,11 +120,8 @@ class LocalizedPromolecule:
     def _table(self, z):
         """Switched radial density of element z on the fine table of radii."""
         if z not in self._tables:
-            r = self._table_r
-            pts = np.zeros((len(r), 3))
-            pts[:, 0] = r
-            f = Promolecule([z], [[0.0, 0.0, 0.0]]).value(pts)
-            self._tables[z] = f * _switch(r, self.r_in, self.r_out)[0]
+            atom = Promolecule([z], [[0.0, 0.0, 0.0]])
+            self._tables[z] = self._radial(atom, self._table_r, 0)[0]
         return self._tables[z]
 
     def __len__(self):
@@ -148,24 +155,42 @@ class LocalizedPromolecule:
             self._add(atom, d[sel], np.sqrt(r2[sel]), sel, order, val, grad, hess)
         return (val, grad, hess)[: order + 1]
 
-    def _add(self, atom, d, r, sel, order, val, grad, hess):
-        out = atom.evaluate(d + atom.positions[0], order)
-        s, ds, dds = _switch(r, self.r_in, self.r_out)
+    def _radial(self, atom, r, order):
+        """F, F' and F'/r, F'' of the softened, switched atom at distances r."""
+        a = self.soften
+        rs = np.sqrt(r * r + a * a)
+        pts = np.zeros((len(r), 3))
+        pts[:, 0] = rs
+        out = atom.evaluate(pts + atom.positions[0], order)
         f = out[0]
-        val[sel] += s * f
+        s, ds, dds = _switch(r, self.r_in, self.r_out)
+        if order == 0:
+            return s * f, None, None, None
+        f1 = out[1][:, 0]                                   # f'(rs)
+        f1_over = f1 / np.maximum(rs, 1e-300)               # f'(rs) / rs
+        g1 = f1_over * r                                    # d f(rs(r)) / dr
+        big = s * f
+        d1 = s * g1 + ds * f
+        d1_over = s * f1_over + np.where(r > 1e-12, ds / np.maximum(r, 1e-300), 0.0) * f
+        if order == 1:
+            return big, d1, d1_over, None
+        f2 = out[2][:, 0, 0]                                # f''(rs)
+        g2 = f2 * (r / rs) ** 2 + f1 * a * a / rs ** 3
+        d2 = s * g2 + 2.0 * ds * g1 + dds * f
+        return big, d1, d1_over, d2
+
+    def _add(self, atom, d, r, sel, order, val, grad, hess):
+        f, d1, d1_over, d2 = self._radial(atom, r, order)
+        val[sel] += f
         if order == 0:
             return
-        safe = np.maximum(r, 1e-12)
-        e = d / safe[:, None]                     # unit vector (switch is flat at r < r_in)
-        gs = ds[:, None] * e
-        grad[sel] += s[:, None] * out[1] + f[:, None] * gs
+        grad[sel] += d1_over[:, None] * d
         if order == 1:
             return
+        safe = np.maximum(r, 1e-12)
+        e = d / safe[:, None]
         ee = e[:, :, None] * e[:, None, :]
-        hs = dds[:, None, None] * ee + (ds / safe)[:, None, None] * (np.eye(3) - ee)
-        gp = out[1]
-        hess[sel] += (s[:, None, None] * out[2] + f[:, None, None] * hs
-                      + gp[:, :, None] * gs[:, None, :] + gs[:, :, None] * gp[:, None, :])
+        hess[sel] += d2[:, None, None] * ee + d1_over[:, None, None] * (np.eye(3) - ee)
 
     def on_grid(self, origin, axes, shape) -> np.ndarray:
         """Values at every point of a regular grid, touching only the spheres.
@@ -218,8 +243,6 @@ class LocalizedPromolecule:
             f += (t - k) * (table[k + 1] - f)
             near = r < _EXACT_RADIUS
             if np.any(near):
-                ii = np.argwhere(near)
-                pts = origin + (ii + lo) @ axes
-                f[near] = atom.evaluate(pts, 0)[0]
+                f[near] = self._radial(atom, r[near], 0)[0]
             out[lo[0]:hi[0] + 1, lo[1]:hi[1] + 1, lo[2]:hi[2] + 1] += f
         return out

@@ -69,7 +69,7 @@ def _key(label):
 
 
 def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, settings,
-                   label_of) -> tuple:
+                   label_of, nuclear_radii=None) -> tuple:
     """Trace bond paths, ring surfaces and ring-to-cage paths.
 
     Parameters
@@ -87,6 +87,9 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
     settings : AnalysisSettings
     label_of : callable
         ``label_of(cp)`` for an attractor: its atom number or id.
+    nuclear_radii : (len(nuclear),) float array, optional
+        Capture radius of each nucleus (default: the larger of
+        ``settings.capture_radius`` and ``settings.nuclear_radius``).
 
     Returns
     -------
@@ -95,7 +98,13 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
     """
     ends = nuclear + attractors
     targets = np.array([cp.position for cp in ends]).reshape(-1, 3)
-    radii = np.full(len(ends), settings.capture_radius)
+    # a path that enters the sphere in which Newton does not look for CPs
+    # (settings.nuclear_radius) has reached that nucleus
+    if nuclear_radii is None:
+        nuclear_radii = [max(settings.capture_radius, settings.nuclear_radius)] * len(nuclear)
+    radii = np.concatenate([np.maximum(np.asarray(nuclear_radii, dtype=float),
+                                       settings.capture_radius),
+                            np.full(len(attractors), settings.capture_radius)])
     starts, firsts, owners = [], [], []
     for i, cp in enumerate(bonds):
         e3 = cp.eigenvectors[2]

@@ -25,7 +25,8 @@ from trackscan.topology.graph import build_graph
 from trackscan.topology.newton import merge_points
 from trackscan.topology.results import (COUNT_KEYS, ID_PREFIX, KINDS, BondPath, CriticalPoint,
                                         fix, sig)
-from trackscan.topology.search import Region, describe_points, find_critical_points, nuclear_points
+from trackscan.topology.search import (Region, describe_points, exclusion_radii,
+                                       find_critical_points, nuclear_points)
 
 __all__ = ["analyze_frame", "FrameTopology", "poincare_hopf"]
 
@@ -255,8 +256,10 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
     def label_of(cp):
         return cp.atoms[0] if cp.kind == "nuclear" else cp.id
 
+    excl = exclusion_radii(field, grid, settings)
     paths = connect_points(field, nuclear, attractors, by["bond"], by["ring"], by["cage"],
-                           region=region, settings=settings, label_of=label_of)
+                           region=region, settings=settings, label_of=label_of,
+                           nuclear_radii=[excl[cp.atoms[0] - 1] for cp in nuclear])
     timings["paths"] = time.perf_counter() - t2
     # deterministic ids
     order = sorted(range(len(by["bond"])),

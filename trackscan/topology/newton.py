@@ -41,6 +41,7 @@ def newton_search(field, x0, *, gtol: float, maxiter: int, max_step: float, insi
     nuclei : (n, 3) float array, optional
         Seeds entering a sphere of `nuclear_radius` around a nucleus are
         abandoned (the cusp; the nuclear attractor is placed separately).
+    nuclear_radius : float or (n,) float array, bohr
     floor : float
         Seeds wandering below a tenth of this density are abandoned.
 
@@ -57,6 +58,8 @@ def newton_search(field, x0, *, gtol: float, maxiter: int, max_step: float, insi
     converged = np.zeros(n, dtype=bool)
     alive = np.ones(n, dtype=bool)
     nuc = None if nuclei is None or len(nuclei) == 0 else np.asarray(nuclei, dtype=float)
+    if nuc is not None:
+        rad2 = np.broadcast_to(np.asarray(nuclear_radius, dtype=float), (len(nuc),)) ** 2
     it = 0
     for it in range(1, maxiter + 1):
         idx = np.nonzero(alive & ~converged)[0]
@@ -82,9 +85,9 @@ def newton_search(field, x0, *, gtol: float, maxiter: int, max_step: float, insi
         xn = xi + step * scale[:, None]
         x[idx] = xn
         ok = inside(xn)
-        if nuc is not None and nuclear_radius > 0:
-            d2 = ((xn[:, None, :] - nuc[None]) ** 2).sum(-1).min(axis=1)
-            ok &= d2 > nuclear_radius ** 2
+        if nuc is not None:
+            d2 = ((xn[:, None, :] - nuc[None]) ** 2).sum(-1)
+            ok &= np.all(d2 > rad2[None, :], axis=1)
         alive[idx[~ok]] = False
     return x, converged & alive, it
 

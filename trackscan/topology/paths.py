@@ -40,6 +40,7 @@ _HMAX = 0.25
 _TOL = 1e-5      # local error per step (bohr)
 _GSTALL = 1e-10
 _MAX_STEPS = 4000
+_MAX_BACKWARDS = 8   # steps without progress in rho before a path counts as stalled
 
 
 @dataclass
@@ -110,6 +111,8 @@ def trace_paths(field, starts, *, uphill: bool = True, targets=None, radii=None,
         hist[i].append(y[i].copy())
     h = np.full(p, _H0)
     steps = np.zeros(p, dtype=np.int64)
+    backwards = np.zeros(p, dtype=np.int64)   # accepted steps on which rho did not progress
+    last_v = np.full(p, -np.inf if uphill else np.inf)
     active = np.ones(p, dtype=bool)
 
     def finish(idx, why):
@@ -140,9 +143,15 @@ def trace_paths(field, starts, *, uphill: bool = True, targets=None, radii=None,
         y[acc] = y3[ok]
         k1[acc] = a4[ok]
         steps[acc] += 1
+        # at a maximum (uphill) or minimum (downhill) that is no target, unit-speed
+        # steps oscillate about it: rho stops progressing
+        vn = v4[ok]
+        worse = (vn <= last_v[acc]) if uphill else (vn >= last_v[acc])
+        backwards[acc] += worse
+        last_v[acc] = vn
         for i, pt in zip(acc, y3[ok]):
             hist[i].append(pt.copy())
-        stalled = acc[g4[ok] < _GSTALL]
+        stalled = acc[(g4[ok] < _GSTALL) | (backwards[acc] >= _MAX_BACKWARDS)]
         _check_end(y, acc, tg, rad, target, finish, hist, inside, (v4[ok], acc), floor)
         still = stalled[active[stalled]]
         finish(still, "stalled")

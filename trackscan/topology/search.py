@@ -27,7 +27,8 @@ from trackscan.topology.properties import (abramov_energy_densities, canonical_e
 from trackscan.topology.results import CriticalPoint
 from trackscan.topology.seeds import atom_seeds, grid_seeds
 
-__all__ = ["Region", "find_critical_points", "nuclear_points", "describe_points"]
+__all__ = ["Region", "find_critical_points", "nuclear_points", "describe_points",
+           "exclusion_radii"]
 
 logger = logging.getLogger(__name__)
 
@@ -97,6 +98,19 @@ def nuclear_points(field, grid, region) -> tuple:
     return cps, skipped
 
 
+def exclusion_radii(field, grid, settings) -> np.ndarray:
+    """Per atom, the radius (bohr) of the sphere kept free of critical points.
+
+    ``settings.nuclear_radius``, or the field's core-smoothing radius
+    (:attr:`trackscan.fields.GridField.core_radii`) where that is larger.
+    """
+    r = np.full(grid.n_atoms, float(settings.nuclear_radius))
+    core = getattr(field, "core_radii", None)
+    if core is not None and len(core) == grid.n_atoms:
+        r = np.maximum(r, core)
+    return r
+
+
 def find_critical_points(field, grid, settings, region, *, level: int = 0,
                          extra_seeds=None) -> tuple:
     """Non-nuclear critical points of `field` inside `region`.
@@ -129,9 +143,10 @@ def find_critical_points(field, grid, settings, region, *, level: int = 0,
     x0 = np.concatenate(seeds)
     x0 = x0[region.inside(x0)]
     nuclei = grid.positions[real]
+    radii = exclusion_radii(field, grid, settings)[real]
     if len(nuclei) and len(x0):
-        d2 = ((x0[:, None, :] - nuclei[None]) ** 2).sum(-1).min(axis=1)
-        x0 = x0[d2 > settings.nuclear_radius ** 2]
+        d2 = ((x0[:, None, :] - nuclei[None]) ** 2).sum(-1)
+        x0 = x0[np.all(d2 > radii[None, :] ** 2, axis=1)]
     n_seeds = len(x0)
     if n_seeds == 0:
         return np.zeros((0, 3)), 0
@@ -140,7 +155,7 @@ def find_critical_points(field, grid, settings, region, *, level: int = 0,
     x0 = x0[keep]
     x, conv, n_iter = newton_search(field, x0, gtol=settings.gtol, maxiter=settings.maxiter,
                                     max_step=settings.max_step, inside=region.inside,
-                                    nuclei=nuclei, nuclear_radius=settings.nuclear_radius,
+                                    nuclei=nuclei, nuclear_radius=radii,
                                     floor=settings.density_floor)
     logger.debug("Newton: %d seeds, %d converged, %d iterations", len(x0), int(conv.sum()), n_iter)
     x = x[conv]
