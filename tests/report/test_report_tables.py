@@ -122,6 +122,27 @@ def test_markdown_tables_equal_scan_json(report):
     _check_frames(frames["header"], frames["rows"], scan)
 
 
+def test_coalescing_pair_table_equals_scan_json(report):
+    scan = report[0]
+    table = _html(report).tables["table-pair1"]
+    col = {h: i for i, h in enumerate(table["header"])}
+    frame = next(f for f in scan["frames"] if f["index"] == scan["changes"][0]["between"][0])
+    cps = {cp["id"]: cp for cp in frame["critical_points"]}
+    assert len(table["rows"]) == 2
+    for row in table["rows"]:
+        cp = cps[row[col["CP"]].split()[-1]]
+        assert row[col["Track"]] == cp["track"]
+        for axis, x in zip("xyz", cp["position_bohr"]):
+            assert shown_equals(row[col[f"{axis} (Å)"]], x / ANGSTROM_IN_BOHR)
+        assert shown_equals(row[col["ρ (a.u.)"]], cp["rho"])
+        assert shown_equals(row[col["∇²ρ (a.u.)"]], cp["laplacian"])
+        for j in range(3):
+            assert shown_equals(row[col[f"λ{j + 1} (a.u.)"]], cp["eigenvalues"][j])
+    bond = next(r for r in table["rows"] if r[0].startswith("bond"))
+    assert shown_equals(bond[col["ε"]], cps["b3"]["ellipticity"])
+    assert bond[col["Atoms"]] == "C1–C2"
+
+
 def test_resolution_limit_given_for_each_change(report):
     scan = report[0]
     rows = _html(report).tables["table-resolution"]["rows"]

@@ -110,6 +110,9 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
     for k, change in enumerate(scan.changes, 1):
         _progress(progress, f"change {k}: molecular graphs and density map")
         blocks = [Paragraph(_change_line(scan, change, k))]
+        pair = tables.pair_table(scan, change, k)
+        if pair is not None:
+            blocks.append(pair)
         fig = graphs.graph_figure(scan, change, k)
         if fig is not None:
             blocks.append(fig)

@@ -29,7 +29,7 @@ from trackscan.errors import TrackscanError
 from trackscan.report.change_geometry import (Plane, atom_positions, change_plane,
                                               involved_atoms)
 from trackscan.report.document import Figure
-from trackscan.report.graphs import changed_keys, draw_graph, legend_handles
+from trackscan.report.graphs import changed_keys, draw_graph, frames_features, legend_handles
 from trackscan.report.scan_data import ScanData
 from trackscan.report.style import new_figure, to_png
 from trackscan.report.wording import change_decimals, fmt_coord
@@ -206,7 +206,7 @@ def density_map_figure(scan: ScanData, change, number: int):
     axes = fig.subplots(1, 2)
     d = change_decimals(change)
     mappable = None
-    kinds = set()
+    kinds = frames_features((before, after))
     for ax, frame, rho, side in zip(axes, (before, after), panels, ("before", "after")):
         if rho is None:
             ax.text(0.5, 0.5, "no density available", ha="center", transform=ax.transAxes)
@@ -216,7 +216,6 @@ def density_map_figure(scan: ScanData, change, number: int):
             # interpolation can undershoot to <= 0 far out; no log contour lives there
             mappable = ax.contour(uu, vv, np.where(np.isfinite(rho) & (rho > 0), rho, np.nan),
                                   levels=levels, cmap=_CONTOUR_CMAP, norm=norm, linewidths=0.8)
-        kinds |= {cp.get("kind") for cp in frame.get("critical_points") or []}
         draw_graph(ax, scan, frame, plane, involved=involved, changed=changed)
         ax.set_aspect("equal", adjustable="box")
         ax.set_xlim(lo[0], hi[0])

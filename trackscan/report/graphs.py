@@ -18,7 +18,7 @@ from trackscan.report.style import CP_STYLE, OKABE_ITO, new_figure, to_png
 from trackscan.report.wording import change_decimals, fmt_coord
 from trackscan.units import BOHR_IN_ANGSTROM
 
-__all__ = ["draw_graph", "graph_figure", "legend_handles", "changed_keys"]
+__all__ = ["draw_graph", "graph_figure", "legend_handles", "changed_keys", "frames_features"]
 
 PATH_COLOUR = "#555555"
 CHANGED_COLOUR = OKABE_ITO["vermillion"]
@@ -102,17 +102,36 @@ def draw_graph(ax, scan: ScanData, frame, plane: Plane, *, involved=(), changed=
     ax.set_xlabel("in-plane u (Å)")
 
 
+def frames_features(frames) -> set:
+    """What the drawings of these frames show: CP kinds, plus ``"open_path"``."""
+    out = set()
+    for f in frames:
+        if f is None:
+            continue
+        out |= {cp.get("kind") for cp in f.get("critical_points") or []}
+        if any(p.get("complete") is False for p in f.get("bond_paths") or []):
+            out.add("open_path")
+    return out
+
+
 def legend_handles(kinds) -> list:
-    """Legend entries for the CP kinds present, bond paths and highlights."""
+    """Legend entries for what is drawn: nuclei, bond paths, the CP kinds present, highlights.
+
+    Parameters
+    ----------
+    kinds : set of str
+        From :func:`frames_features`.
+    """
     st = CP_STYLE["nuclear"]
     handles = [Line2D([], [], marker="o", ls="none", markerfacecolor="white",
                       markeredgecolor=st["color"], ms=8, label="nucleus (label: element+number; "
                       "bold: involved)"),
-               Line2D([], [], color=PATH_COLOUR, lw=1.2, label="bond path (projected)"),
-               Line2D([], [], color=PATH_COLOUR, lw=1.2, ls=":",
-                      label="bond path not reaching an attractor"),
-               Line2D([], [], color=CHANGED_COLOUR, lw=2.4,
-                      label="bond path that breaks, forms or switches")]
+               Line2D([], [], color=PATH_COLOUR, lw=1.2, label="bond path (projected)")]
+    if "open_path" in kinds:
+        handles.append(Line2D([], [], color=PATH_COLOUR, lw=1.2, ls=":",
+                              label="bond path not reaching an attractor"))
+    handles.append(Line2D([], [], color=CHANGED_COLOUR, lw=2.4,
+                          label="bond path that breaks, forms or switches"))
     for kind in ("bond", "ring", "cage", "non_nuclear", "degenerate"):
         if kind in kinds:
             s = CP_STYLE[kind]
@@ -138,7 +157,7 @@ def graph_figure(scan: ScanData, change, number: int):
     changed = changed_keys(scan, change)
     fig = new_figure(10.0, 4.6)
     axes = fig.subplots(1, 2)
-    kinds = set()
+    kinds = frames_features((before, after))
     d = change_decimals(change)
     for ax, frame, side in zip(axes, (before, after), ("before", "after")):
         if frame is None:
@@ -146,7 +165,6 @@ def graph_figure(scan: ScanData, change, number: int):
                     transform=ax.transAxes)
             ax.set_axis_off()
             continue
-        kinds |= {cp.get("kind") for cp in frame.get("critical_points") or []}
         draw_graph(ax, scan, frame, plane, involved=involved, changed=changed)
         ax.set_title(f"{side}: frame {frame.get('index')}, "
                      f"{scan.coordinate_label} = {fmt_coord(frame.get('value'), d)} "

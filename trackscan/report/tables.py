@@ -12,7 +12,10 @@ import csv
 import io
 import json
 
+import numpy as np
+
 from trackscan.io.atomic import write_text_atomic
+from trackscan.report.change_geometry import coalescing_pair
 from trackscan.report.document import Table
 from trackscan.report.scan_data import CP_KINDS, ScanData, frame_energy
 from trackscan.report.wording import (change_decimals, change_words, coord_decimals,
@@ -21,7 +24,7 @@ from trackscan.report.wording import (change_decimals, change_words, coord_decim
                                       uncertainty_of)
 from trackscan.units import BOHR_IN_ANGSTROM
 
-__all__ = ["summary_table", "resolution_table", "frame_table", "warning_table",
+__all__ = ["summary_table", "pair_table", "resolution_table", "frame_table", "warning_table",
            "settings_table", "change_csv_rows", "critical_point_csv_rows", "write_csv",
            "CHANGES_CSV_HEADER", "CRITICAL_POINTS_CSV_HEADER"]
 
@@ -78,6 +81,37 @@ def resolution_table(scan: ScanData) -> Table:
     return Table("resolution", header, tuple(rows),
                  "Grid spacing and printed precision limit how close to a catastrophe "
                  "a grid can see; the limit of each change as estimated by the analysis.")
+
+
+def pair_table(scan: ScanData, change, number: int):
+    """The two CPs that coalesce in a fold, in the last frame where both exist.
+
+    Returns None when the change has no coalescing pair.
+    """
+    pair = coalescing_pair(scan, change)
+    if pair is None:
+        return None
+    a, b, side = pair
+    frame = scan.change_frames(change)[0 if side == "before" else 1]
+    header = ("CP", "Track", "Atoms", "x (Å)", "y (Å)", "z (Å)", "ρ (a.u.)", "∇²ρ (a.u.)",
+              "λ1 (a.u.)", "λ2 (a.u.)", "λ3 (a.u.)", "ε")
+    rows = []
+    for cp in (a, b):
+        pos = cp.get("position_bohr") or [None] * 3
+        ev = list(cp.get("eigenvalues") or []) + [None] * 3
+        atoms = scan.labels(cp.get("atoms"), frame) if cp.get("kind") != "cage" else "—"
+        rows.append((f"{cp.get('kind')} CP {cp.get('id')}", describe_value(cp.get("track")),
+                     atoms or "—",
+                     *(fmt_coord(None if x is None else x * BOHR_IN_ANGSTROM, 4)
+                       for x in pos[:3]),
+                     fmt_sig(cp.get("rho")), fmt_sig(cp.get("laplacian")),
+                     fmt_sig(ev[0]), fmt_sig(ev[1]), fmt_sig(ev[2]),
+                     fmt_sig(cp.get("ellipticity"))))
+    d = np.linalg.norm(np.subtract(a["position_bohr"], b["position_bohr"])) * BOHR_IN_ANGSTROM
+    where = "last frame before" if side == "before" else "first frame after"
+    return Table(f"pair{number}", header, tuple(rows),
+                 f"Change {number}: the pair that coalesces, in frame {frame.get('index')} "
+                 f"(the {where} the change), {fmt_sig(d, 3)} Å apart.")
 
 
 def _frame_warnings(frame, scan: ScanData) -> list:
