@@ -278,3 +278,17 @@ def test_matching_gate_separates_far_jumps():
     t2 = {cp["id"]: cp["track"] for cp in r2["frames"][2]["critical_points"]}
     t3 = {cp["id"]: cp["track"] for cp in r2["frames"][3]["critical_points"]}
     assert t2["b1"] == t3["b1"]
+
+
+def test_open_bond_path_ends_do_not_break_tracking():
+    frames = S.conflict_scan()
+    frames[3]["bond_paths"][1]["atoms"] = [None, 3]
+    frames[3]["bond_paths"][1]["complete"] = False
+    r = track_scan(frames)
+    # frame 3 differs only by its open path: both of its steps are unresolved
+    # (not conflicts), and nothing claims a partner switch
+    assert [c["between"] for c in r["changes"]] == [[2, 3], [3, 4]]
+    for ch in r["changes"]:
+        assert ch["mechanism"] == "unresolved"
+        assert "does not reach an attractor" in ch["note"]
+    assert not any(e["kind"] == "bond_switched" for c in r["changes"] for e in c["events"])

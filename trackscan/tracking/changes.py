@@ -56,6 +56,10 @@ class StepEvents:
     lost, born : list of CPView
         Points lost or born without a partner.
     notes : list of str
+    noise : list of str
+        Why the step's births/deaths are judged noise (empty if they are not).
+    open_paths : bool
+        A bond path of either frame that changed did not reach an attractor.
     """
 
     k: int
@@ -66,6 +70,7 @@ class StepEvents:
     born: list = field(default_factory=list)
     notes: list = field(default_factory=list)
     noise: list = field(default_factory=list)
+    open_paths: bool = False
 
     @property
     def has_events(self) -> bool:
@@ -110,8 +115,17 @@ def analyse_step(k, a, b, ta, tb, match, *, settings) -> StepEvents:
         if cpa.kind != "bond":
             continue
         ea, eb = _ends(a, cpa, ta), _ends(b, cpb, tb)
-        if ea != eb:
-            out.switches.append((cpa, cpb, ea, eb, False))
+        if ea == eb:
+            continue
+        if None in ea or None in eb:
+            # an open path is an incomplete analysis, not a switch of partner
+            which = [f"{cp.id} of frame {f}" for cp, e, f in ((cpa, ea, k), (cpb, eb, k + 1))
+                     if None in e]
+            out.notes.append(f"the bond path of {' and '.join(which)} does not reach an "
+                             f"attractor at both ends")
+            out.open_paths = True
+            continue
+        out.switches.append((cpa, cpb, ea, eb, False))
     # A bond CP that moved beyond the gate shows as a death and a birth of two
     # bond CPs sharing one end: read it as a switch, not as two unpaired events.
     lb = [cp for cp in lost if cp.kind == "bond"]
@@ -263,7 +277,9 @@ def find_changes(views, tracks, matches, aligned, keys, graphs, structures, *, s
         events = _step_event_list(st, a, b, tracks[k], tracks[k + 1])
         notes = list(st.notes)
         n_fold = len(st.folds_lost) + len(st.folds_born)
-        if not st.has_events:
+        if not st.has_events and st.open_paths:
+            candidate = "unresolved"
+        elif not st.has_events:
             events = _diff_events(keys[k], keys[k + 1])
             candidate = "unresolved"
             notes.append("the molecular graphs differ but no critical point was born, lost or "
@@ -309,6 +325,8 @@ def find_changes(views, tracks, matches, aligned, keys, graphs, structures, *, s
             mechanism = "unresolved"
         if st.noise:
             notes.extend(st.noise)
+            mechanism = "unresolved"
+        if st.open_paths:
             mechanism = "unresolved"
         va, vb = a.value, b.value
         change = {

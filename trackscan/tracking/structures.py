@@ -52,8 +52,9 @@ def frame_graph(view, tracks) -> nx.MultiGraph:
     Returns
     -------
     networkx.MultiGraph
-        Nodes: atom numbers 1..n and the tracks of non-nuclear attractors
-        (and ``None`` if some path is open); edges: one per bond CP.
+        Nodes: atom numbers 1..n, the tracks of non-nuclear attractors, and
+        one ``"open:<cp>:<end>"`` node per open path end; edges: one per
+        bond CP.
     """
     g = nx.MultiGraph()
     for i, el in enumerate(view.elements, start=1):
@@ -64,11 +65,16 @@ def frame_graph(view, tracks) -> nx.MultiGraph:
         ends = view.bond_ends.get(cp.id, (None, None))
         if len(ends) != 2:
             ends = (None, None)
-        a, b = (end_label(e, tracks) for e in ends)
-        for x in (a, b):
-            if x not in g:
-                g.add_node(x, element="open" if x is None else "NNA")
-        g.add_edge(a, b, cp=cp.id, track=tracks[cp.id])
+        labels = []
+        for i, e in enumerate(ends):
+            x = end_label(e, tracks)
+            if x is None:
+                x = f"open:{cp.id}:{i}"
+                g.add_node(x, element="open")
+            elif x not in g:
+                g.add_node(x, element="NNA")
+            labels.append(x)
+        g.add_edge(labels[0], labels[1], cp=cp.id, track=tracks[cp.id])
     return g
 
 
