@@ -3,9 +3,10 @@
 Densities from the built-in promolecular model, written as cube files and
 listed in a scan manifest; ``trackscan analyze`` analyses and tracks them and
 ``trackscan report`` writes the report.  The ring opens in a fold: the bond
-CP of C1–C2 and the ring CP annihilate (near 1.65 Å on this model).  The manifest's energies are the nuclear
-repulsion energies of the frames (sum of Z_i Z_j / r_ij, hartree): a real
-property of each geometry, used here only to exercise the energy plot.
+CP of C1–C2 and the ring CP annihilate (between 1.6 and 1.7 Å on this
+model).  The manifest's energies are the nuclear repulsion energies of the
+frames (sum of Z_i Z_j / r_ij, hartree): a real property of each geometry,
+used here only to exercise the energy plot.
 """
 
 from __future__ import annotations

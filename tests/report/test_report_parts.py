@@ -74,7 +74,8 @@ def test_resolution_words_follow_the_fold_normal_form():
 def test_coordinate_decimals_keep_bracket_ends_apart():
     assert coord_decimals(2.0, 2.1) == 3
     assert coord_decimals(width=3e-6) == 8
-    assert f"{2.0712345:.{coord_decimals(width=1e-5)}f}" != f"{2.0712445:.{coord_decimals(width=1e-5)}f}"
+    d = coord_decimals(width=1e-5)
+    assert f"{2.0712345:.{d}f}" != f"{2.0712445:.{d}f}"
 
 
 def test_best_plane_of_points_on_a_known_plane():

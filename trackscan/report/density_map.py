@@ -224,7 +224,8 @@ def density_map_figure(scan: ScanData, change, number: int):
                      f"{fmt_coord(frame.get('value'), d)} {scan.unit_symbol}".rstrip(),
                      fontsize=10)
     axes[0].set_ylabel("in-plane v (Å)")
-    handles = [Line2D([], [], color="#6b6b6b", lw=0.8, label="ρ contour (log levels 1, 2, 5 × 10ⁿ)")]
+    handles = [Line2D([], [], color="#6b6b6b", lw=0.8,
+                      label="ρ contour (log levels 1, 2, 5 × 10ⁿ)")]
     fig.legend(handles=handles + legend_handles(kinds), loc="lower center", ncol=3,
                fontsize=8, frameon=False, bbox_to_anchor=(0.5, 0.0))
     fig.subplots_adjust(bottom=0.24)

@@ -181,7 +181,8 @@ def _warning_details(w: dict) -> str:
         parts.append("indicators: " + ", ".join(str(x).replace("_", " ") for x in w["indicators"]))
     if isinstance(w.get("projected"), dict) and w["projected"]:
         parts.append("projected zero: " + ", ".join(
-            f"{str(k).replace('_', ' ')} at {fmt_sig(v, 5)}" for k, v in sorted(w["projected"].items())))
+            f"{str(k).replace('_', ' ')} at {fmt_sig(v, 5)}"
+            for k, v in sorted(w["projected"].items())))
     if w.get("change_between"):
         parts.append("followed by the change between frames "
                      + " and ".join(str(x) for x in w["change_between"]))

@@ -58,7 +58,8 @@ def fmt_coord(x, decimals: int = 4) -> str:
     """A coordinate value with fixed decimals (``"—"`` when missing)."""
     if not _finite(x):
         return "—"
-    return f"{float(x):.{decimals}f}"
+    text = f"{float(x):.{decimals}f}"
+    return text[1:] if text.startswith("-") and not text.strip("-0.") else text
 
 
 def fmt_sig(x, digits: int = 5) -> str:
