@@ -1,0 +1,80 @@
+"""Final estimate, method, evaluation count and uncertainty of each change.
+
+Per change (scan.json contract, DESIGN.md section 3, plus extensions):
+
+- ``estimate`` and ``estimate_method``: the fold extrapolation from the
+  pair's squared separation when it lies inside the bracket
+  (``"fold-extrapolation"``), else the bracket midpoint
+  (``"bisection-midpoint"`` after refinement, ``"bracket-midpoint"`` when no
+  frame was added);
+- ``evaluations``: frames added by refinement inside the change's initial
+  bracket (the bracket between frames not made by refinement);
+- ``uncertainty``: ``{"half_width": ..., "model_error": ...}`` -- half the
+  bracket, and the extrapolation's own error estimate (difference between
+  interpolation orders) when there is one;
+- ``refine``: ``initial_bracket``, ``tolerance``, ``converged`` and
+  ``bisection_evaluations`` (what plain bisection needs from the initial
+  bracket to the tolerance), and for folds ``fold_fit``.
+"""
+
+from __future__ import annotations
+
+import copy
+
+from trackscan.refine.indicators import fold_samples, fold_side
+from trackscan.refine.loop import change_context
+from trackscan.refine.proposals import bisection_count, fit_fold
+
+__all__ = ["annotate_changes"]
+
+
+def annotate_changes(frames, changes, *, tolerance: float | None = None) -> list:
+    """Changes with estimate, method, evaluations and uncertainty filled in.
+
+    Parameters
+    ----------
+    frames : sequence of dict
+        Tracked frames in scan order (frames added by refinement carry
+        ``refine``).
+    changes : sequence of dict
+        The tracking result's changes.
+    tolerance : float, optional
+        The refine tolerance, recorded with each change.
+
+    Returns
+    -------
+    list of dict
+        Copies of `changes`.
+    """
+    out = []
+    for ch in changes:
+        ch = copy.deepcopy(ch)
+        ctx = change_context(frames, ch)
+        v0, v1 = (float(x) for x in ch["bracket"])
+        lo, hi = min(v0, v1), max(v0, v1)
+        width = hi - lo
+        mid = 0.5 * (v0 + v1)
+        ch["evaluations"] = ctx.evaluations
+        estimate, method, model_error = mid, ("bisection-midpoint" if ctx.evaluations
+                                              else ch.get("estimate_method", "bracket-midpoint")), None
+        info = {"initial_bracket": [float(x) for x in ctx.base]}
+        side = fold_side(ch)
+        if side is not None:
+            fit = fit_fold(fold_samples(frames, side), absent=side.absent)
+            if fit is not None:
+                info["fold_fit"] = fit.to_dict()
+                if lo < fit.estimate < hi:
+                    estimate, method, model_error = fit.estimate, "fold-extrapolation", fit.error
+                else:
+                    info["fold_fit"]["outside_bracket"] = True
+        ch["estimate"] = float(estimate)
+        ch["estimate_method"] = method
+        ch["uncertainty"] = {"half_width": 0.5 * width, "model_error": model_error}
+        if tolerance is not None:
+            w0 = abs(ctx.base[1] - ctx.base[0])
+            info["tolerance"] = float(tolerance)
+            info["converged"] = bool(width <= tolerance)
+            info["bisection_evaluations"] = bisection_count(w0, tolerance)
+        ch["refine"] = info
+        out.append(ch)
+    return out

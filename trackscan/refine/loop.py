@@ -1,0 +1,314 @@
+"""The refine loop: propose values, compute frames there, track again, repeat.
+
+The loop knows frame dicts and changes only; where frames come from is the
+caller's `evaluate` callback (a generator with a cube on disk and a record
+entry written before it returns, or an analytic field in a test).  All the
+loop's state lives in the frames themselves: a frame made by refinement
+carries a ``refine`` mapping (round, method, model uncertainty, expected
+side), so an interrupted refine that is restarted with the frames computed so
+far makes exactly the proposals it would have made next, and repeats no
+calculation.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+from dataclasses import dataclass, field
+
+from trackscan.errors import InputError
+from trackscan.progress import report
+from trackscan.refine.indicators import fold_samples, fold_side, is_fold
+from trackscan.refine.proposals import (
+    BISECTION, DECIMALS, FOLD, allocate_slots, bisection_count, propose_bisection, propose_fold,
+)
+
+__all__ = ["Probe", "RefineResult", "ChangeContext", "change_context", "plan_round",
+           "refine_frames", "REFINE_KEY", "MIN_TOLERANCE"]
+
+logger = logging.getLogger(__name__)
+
+REFINE_KEY = "refine"
+"""Key of the refine bookkeeping in a frame dict and in a record entry."""
+
+#: Smallest tolerance: proposals are rounded to 1e-6 (the resolution of
+#: generated frame names), so brackets cannot usefully be narrower than 1e-5.
+MIN_TOLERANCE = 1e-5
+
+
+@dataclass(frozen=True)
+class Probe:
+    """One value to compute, with the bookkeeping to store beside the frame.
+
+    Attributes
+    ----------
+    value : float
+    meta : dict
+        ``round``, ``method``, ``bracket`` (the bracket it refines, scan
+        order), and for fold steps ``delta`` and ``expected``.
+    """
+
+    value: float
+    meta: dict
+
+
+@dataclass(frozen=True)
+class ChangeContext:
+    """What the loop knows about one change.
+
+    Attributes
+    ----------
+    change : dict
+    width : float
+    base : tuple of float
+        The bracket formed by the nearest frames not made by refinement.
+    evaluations : int
+        Refinement frames inside `base`.
+    last : list of dict
+        Refine records of the latest round inside `base`.
+    """
+
+    change: dict
+    width: float
+    base: tuple
+    evaluations: int
+    last: list
+
+
+@dataclass
+class RefineResult:
+    """Outcome of :func:`refine_frames`.
+
+    Attributes
+    ----------
+    tracked : dict
+        The last tracking result (``frames``, ``changes``, ...).
+    frames : list of dict
+        Every frame, untracked, in the order evaluated.
+    evaluations : int
+        Frames computed by this call.
+    total_evaluations : int
+        Frames made by refinement, including earlier (interrupted) runs.
+    rounds : int
+    converged : bool
+        Every change bracket is at most the tolerance.
+    message : str
+        Why the loop stopped.
+    """
+
+    tracked: dict
+    frames: list
+    evaluations: int = 0
+    total_evaluations: int = 0
+    rounds: int = 0
+    converged: bool = False
+    message: str = ""
+    history: list = field(default_factory=list)
+
+
+def _is_refined(frame) -> bool:
+    return isinstance(frame.get(REFINE_KEY), dict)
+
+
+def change_context(frames, change) -> ChangeContext:
+    """Base bracket and refinement history of one change.
+
+    Parameters
+    ----------
+    frames : sequence of dict
+        Tracked frames in scan order.
+    change : dict
+    """
+    v0, v1 = (float(x) for x in change["bracket"])
+    lo, hi = min(v0, v1), max(v0, v1)
+    base_vals = sorted(float(f["value"]) for f in frames if not _is_refined(f))
+    below = [v for v in base_vals if v <= lo]
+    above = [v for v in base_vals if v >= hi]
+    b_lo = below[-1] if below else lo
+    b_hi = above[0] if above else hi
+    inside = [f for f in frames if _is_refined(f) and b_lo < float(f["value"]) < b_hi]
+    last = []
+    if inside:
+        r = max(int(f[REFINE_KEY].get("round", 0)) for f in inside)
+        last = [dict(f[REFINE_KEY], value=float(f["value"])) for f in inside
+                if int(f[REFINE_KEY].get("round", 0)) == r]
+    base = (b_lo, b_hi) if v0 <= v1 else (b_hi, b_lo)
+    return ChangeContext(change, hi - lo, base, len(inside), last)
+
+
+def _surprised(ctx: ChangeContext, side) -> bool:
+    """Did the last fold step find the pair on the side it did not expect?"""
+    if side is None:
+        return False
+    sign = 1.0 if side.absent > side.present else -1.0
+    for rec in ctx.last:
+        if rec.get("method") != FOLD or not rec.get("expected"):
+            continue
+        got = "present" if (rec["value"] - side.present) * sign <= 0 else "absent"
+        if got != rec["expected"]:
+            return True
+    return False
+
+
+def _previous_delta(ctx: ChangeContext):
+    deltas = [r.get("delta") for r in ctx.last if r.get("method") == FOLD]
+    deltas = [d for d in deltas if isinstance(d, (int, float))]
+    return max(deltas) if deltas else None
+
+
+def propose_for_change(tracked_frames, ctx: ChangeContext, *, tolerance: float, n: int):
+    """Proposal for one open change (fold model when it applies, else bisection)."""
+    ch = ctx.change
+    v0, v1 = (float(x) for x in ch["bracket"])
+    side = fold_side(ch)
+    if side is None:
+        why = ("tracking recorded no fold pair" if is_fold(ch) else
+               f"no fold indicator for a {ch.get('mechanism')} change")
+        return propose_bisection(min(v0, v1), max(v0, v1), n, reason=why)
+    samples = fold_samples(tracked_frames, side)
+    return propose_fold(side.present, side.absent, samples, tol=tolerance, n=n,
+                        evaluations=ctx.evaluations, initial_width=abs(ctx.base[1] - ctx.base[0]),
+                        previous_delta=_previous_delta(ctx), surprised=_surprised(ctx, side))
+
+
+def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 1,
+               budget: int | None = None) -> list:
+    """The probes of one round of refinement.
+
+    Parameters
+    ----------
+    tracked : dict
+        Result of :func:`trackscan.tracking.track_scan`.
+    tolerance : float
+        Target bracket width (coordinate units).
+    jobs : int
+        Values per round, shared among the open brackets
+        (:func:`~trackscan.refine.proposals.allocate_slots`).
+    round_number : int
+    budget : int, optional
+        At most this many probes.
+
+    Returns
+    -------
+    list of Probe
+        Sorted by value; empty when every bracket is at most `tolerance`.
+    """
+    frames = tracked["frames"]
+    existing = {round(float(f["value"]), DECIMALS) for f in frames}
+    contexts = [change_context(frames, ch) for ch in tracked["changes"]]
+    open_ = [c for c in contexts if c.width > tolerance]
+    if not open_:
+        return []
+    slots = allocate_slots([c.width / tolerance for c in open_], jobs)
+    probes = []
+    for ctx, n in zip(open_, slots):
+        if n == 0:
+            continue
+        prop = propose_for_change(frames, ctx, tolerance=tolerance, n=n)
+        logger.info("bracket %s: %s %s (%s)", ctx.change["bracket"], prop.method,
+                    list(prop.values), prop.reason)
+        expected = prop.expected or (None,) * len(prop.values)
+        for v, e in zip(prop.values, expected):
+            if v in existing:
+                continue
+            existing.add(v)
+            meta = {"round": int(round_number), "method": prop.method,
+                    "bracket": [float(x) for x in ctx.change["bracket"]]}
+            if prop.method == FOLD:
+                meta["delta"] = float(prop.delta)
+                meta["expected"] = e
+                meta["fold_estimate"] = float(prop.fit.estimate)
+            probes.append(Probe(float(v), meta))
+    probes.sort(key=lambda p: p.value)
+    if budget is not None:
+        probes = probes[:max(budget, 0)]
+    return probes
+
+
+def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | None = None,
+                  jobs: int = 1, track=None, progress=None) -> RefineResult:
+    """Narrow every change bracket of a scan below `tolerance`.
+
+    Parameters
+    ----------
+    frames : sequence of dict
+        Analysed frame dicts with ``value`` (any order).  Frames made by an
+        earlier refine carry their ``refine`` record.
+    evaluate : callable
+        ``evaluate(probes) -> list of frame dicts``, one per :class:`Probe`,
+        each with ``value`` set and ``refine`` equal to the probe's meta.  It
+        must persist each frame before returning (that makes the loop
+        resumable) and may compute them in parallel.
+    tolerance : float
+        Target bracket width, in coordinate units (at least
+        :data:`MIN_TOLERANCE`).
+    max_evaluations : int, optional
+        Budget of refinement frames for the scan, counting those of earlier
+        runs; None: no limit besides convergence.
+    jobs : int
+        Values per round.
+    track : callable, optional
+        ``track(frames) -> dict``; default :func:`trackscan.tracking.track_scan`.
+    progress : callable, optional
+        Receives ProgressEvent objects (task ``"refine"``).
+
+    Returns
+    -------
+    RefineResult
+
+    Raises
+    ------
+    InputError
+        Bad tolerance, budget or jobs.
+    """
+    if not (isinstance(tolerance, (int, float)) and math.isfinite(tolerance)) \
+            or tolerance < MIN_TOLERANCE:
+        raise InputError(f"--tolerance must be a number >= {MIN_TOLERANCE:g} (proposed values "
+                         f"are rounded to {DECIMALS} decimals), got {tolerance!r}")
+    if max_evaluations is not None and max_evaluations < 0:
+        raise InputError(f"--max-evaluations must be >= 0, got {max_evaluations}")
+    if jobs < 1:
+        raise InputError(f"--jobs must be at least 1, got {jobs}")
+    if track is None:
+        from trackscan.tracking import track_scan as track
+    frames = list(frames)
+    done_before = sum(1 for f in frames if _is_refined(f))
+    rounds_before = max((int(f[REFINE_KEY].get("round", 0)) for f in frames if _is_refined(f)),
+                        default=0)
+    result = RefineResult(tracked=track(frames), frames=frames, total_evaluations=done_before)
+    round_number = rounds_before
+    while True:
+        budget = None if max_evaluations is None else max_evaluations - result.total_evaluations
+        widths = [abs(c["bracket"][1] - c["bracket"][0]) for c in result.tracked["changes"]]
+        if all(w <= tolerance for w in widths):
+            result.converged = True
+            result.message = ("no structural change to refine" if not widths else
+                              f"every bracket is at most {tolerance:g}")
+            break
+        if budget is not None and budget <= 0:
+            result.message = f"evaluation budget of {max_evaluations} spent"
+            break
+        round_number += 1
+        probes = plan_round(result.tracked, tolerance=tolerance, jobs=jobs,
+                            round_number=round_number, budget=budget)
+        if not probes:
+            result.message = "no new value can be proposed (brackets at the value resolution)"
+            break
+        report(progress, "refine", result.total_evaluations, max_evaluations or 0,
+               "values " + ", ".join(f"{p.value:g}" for p in probes))
+        new = list(evaluate(probes))
+        if len(new) != len(probes):
+            raise ValueError(f"evaluate returned {len(new)} frames for {len(probes)} probes")
+        for p, f in zip(probes, new):
+            f.setdefault(REFINE_KEY, dict(p.meta))
+        result.frames.extend(new)
+        result.evaluations += len(new)
+        result.total_evaluations += len(new)
+        result.rounds += 1
+        result.history.append([{"value": p.value, **p.meta} for p in probes])
+        result.tracked = track(result.frames)
+    report(progress, "refine", result.total_evaluations, result.total_evaluations,
+           result.message)
+    logger.info("refine: %s after %d new frames in %d rounds", result.message,
+                result.evaluations, result.rounds)
+    return result
