@@ -21,6 +21,8 @@ from trackscan.units import BOHR_IN_ANGSTROM
 __all__ = ["draw_graph", "graph_figure", "legend_handles", "changed_keys", "frames_features"]
 
 PATH_COLOUR = "#555555"
+# Atoms whose projections lie closer than this (Å) get one joint label.
+_SAME_SPOT_ANGSTROM = 0.08
 CHANGED_COLOUR = OKABE_ITO["vermillion"]
 
 
@@ -88,6 +90,7 @@ def draw_graph(ax, scan: ScanData, frame, plane: Plane, *, involved=(), changed=
                        edgecolors=CHANGED_COLOUR, s=st["size"] * 4.5, linewidths=1.6, zorder=4)
 
     st = CP_STYLE["nuclear"]
+    labels = []          # [(uv, [label, ...], bold)]: atoms that project onto one spot share
     for num in sorted(atoms):
         a = atoms[num]
         uv = plane.project(a["position_bohr"])[0] * BOHR_IN_ANGSTROM
@@ -95,7 +98,15 @@ def draw_graph(ax, scan: ScanData, frame, plane: Plane, *, involved=(), changed=
         ax.scatter([uv[0]], [uv[1]], marker=st["marker"], s=st["size"] * (1.3 if bold else 1.0),
                    color="white", edgecolors=st["color"], linewidths=1.8 if bold else 1.0,
                    zorder=5)
-        ax.annotate(atom_label(a), uv, xytext=(6, 5), textcoords="offset points", fontsize=9,
+        for entry in labels:
+            if np.linalg.norm(entry[0] - uv) < _SAME_SPOT_ANGSTROM:
+                entry[1].append(atom_label(a))
+                entry[2] = entry[2] or bold
+                break
+        else:
+            labels.append([uv, [atom_label(a)], bold])
+    for uv, names, bold in labels:
+        ax.annotate(", ".join(names), uv, xytext=(6, 5), textcoords="offset points", fontsize=9,
                     fontweight="bold" if bold else "normal", zorder=6)
     ax.margins(0.15)
     ax.grid(alpha=0.25, lw=0.5)
