@@ -292,3 +292,17 @@ def test_open_bond_path_ends_do_not_break_tracking():
         assert ch["mechanism"] == "unresolved"
         assert "does not reach an attractor" in ch["note"]
     assert not any(e["kind"] == "bond_switched" for c in r["changes"] for e in c["events"])
+
+
+def test_separation_floor_marks_too_close_pairs_unresolved():
+    # d = 0.01*sqrt(0.5) = 0.0071 bohr in frame 2, with a clear density difference
+    frames = S.ring_opening_scan(c=0.01, kappa=1e5)
+    (ch,) = track_scan(frames)["changes"]            # 0.1 bohr grid: floor 0.00125 bohr
+    assert ch["mechanism"] == "fold"
+    for f in frames:
+        f["grid"]["spacing_bohr"] = [0.2, 0.2, 0.2]  # floor 0.01 bohr
+    (ch,) = track_scan(frames)["changes"]
+    (pair,) = ch["resolution"]["pairs"]
+    assert pair["separation_bohr"] < pair["separation_floor_bohr"]
+    assert pair["rho_difference"] > pair["rho_floor"]
+    assert ch["mechanism"] == "unresolved" and "separation" in ch["note"]

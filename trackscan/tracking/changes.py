@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from trackscan.tracking.matching import pair_folds
-from trackscan.tracking.resolution import interpolation_floor, rho_floor
+from trackscan.tracking.resolution import interpolation_floor, rho_floor, separation_floor
 from trackscan.tracking.structures import end_label, same_structure_type, sort_ends
 
 __all__ = ["StepEvents", "analyse_step", "find_changes", "sig"]
@@ -196,11 +196,21 @@ def sig(x, digits: int = 10):
 
 
 def _pair_record(lo, hi, d, frame, view, tracks, settings):
+    """Resolution of one fold pair at the bracket end where it exists.
+
+    ``margin`` is the smaller of (density difference / density floor) and
+    (separation / separation floor): below 1 the frame cannot resolve the
+    pair.
+    """
     drho = abs(hi.rho - lo.rho)
     floor = rho_floor(max(lo.rho, hi.rho), view.spacing, _digits(view, settings))
+    dfloor = separation_floor(view.spacing)
+    ratios = [x for x in (drho / floor if floor > 0 else None,
+                          d / dfloor if dfloor > 0 else None) if x is not None]
     return {"cps": [lo.id, hi.id], "tracks": [tracks[lo.id], tracks[hi.id]], "frame": frame,
-            "separation_bohr": sig(d), "rho_difference": sig(drho), "rho_floor": sig(floor),
-            "margin": sig(drho / floor) if floor > 0 else None}
+            "separation_bohr": sig(d), "separation_floor_bohr": sig(dfloor),
+            "rho_difference": sig(drho), "rho_floor": sig(floor),
+            "margin": sig(min(ratios)) if ratios else None}
 
 
 def _mark_noise(steps, views, tracks, aligned, settings):
@@ -319,9 +329,11 @@ def find_changes(views, tracks, matches, aligned, keys, graphs, structures, *, s
                 mechanism = "unresolved"
         if not resolution["resolved"]:
             worst = min((p for p in pairs if p["margin"] is not None), key=lambda p: p["margin"])
-            notes.append(f"the pair {worst['tracks'][0]}/{worst['tracks'][1]} differs in density "
-                         f"by {worst['rho_difference']:.2g}, below the resolution floor "
-                         f"{worst['rho_floor']:.2g} of frame {worst['frame']}")
+            notes.append(f"the pair {worst['tracks'][0]}/{worst['tracks'][1]} (density difference "
+                         f"{worst['rho_difference']:.2g}, separation "
+                         f"{worst['separation_bohr']:.2g} bohr) is below the resolution floor of "
+                         f"frame {worst['frame']} (density {worst['rho_floor']:.2g}, separation "
+                         f"{worst['separation_floor_bohr']:.2g} bohr)")
             mechanism = "unresolved"
         if st.noise:
             notes.extend(st.noise)

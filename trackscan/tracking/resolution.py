@@ -14,16 +14,36 @@ resolve.  Two things limit it:
   a cubic interpolant (a model, not a measurement beyond h = 0.1).
 
 The floor of a frame at density ρ is the larger of the two.
+
+Positions are limited too: METHODS.md section 7 calls a pair absent when its
+two points are closer than about three times the position error, ≈ 0.01
+bohr at h ≈ 0.2 with promolecule subtraction.  We scale that as h³ (between
+the measured h² and h⁵ trends of METHODS.md section 1; a model).
 """
 
 from __future__ import annotations
 
 import math
 
-__all__ = ["interpolation_floor", "printed_floor", "rho_floor", "INTERPOLATION_ERROR_AT_0P1"]
+__all__ = ["interpolation_floor", "printed_floor", "rho_floor", "separation_floor",
+           "INTERPOLATION_ERROR_AT_0P1", "SEPARATION_FLOOR_AT_0P2"]
 
 #: |Δρ| of the interpolated density at h = 0.1 bohr (METHODS.md section 1, [C]).
 INTERPOLATION_ERROR_AT_0P1 = 3.0e-6
+
+
+#: Smallest resolvable CP-pair separation at h = 0.2 bohr (METHODS.md section 7).
+SEPARATION_FLOOR_AT_0P2 = 0.01
+
+
+def separation_floor(spacing: float) -> float:
+    """Smallest distance (bohr) at which two CPs of a pair can be told apart.
+
+    Returns 0 when the spacing is unknown.
+    """
+    if not math.isfinite(spacing) or spacing <= 0:
+        return 0.0
+    return SEPARATION_FLOOR_AT_0P2 * (spacing / 0.2) ** 3
 
 
 def interpolation_floor(spacing: float) -> float:
