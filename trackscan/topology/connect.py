@@ -24,6 +24,8 @@ References
 
 from __future__ import annotations
 
+import itertools
+
 import numpy as np
 
 from trackscan.topology.paths import trace_paths
@@ -98,6 +100,7 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
     """
     ends = nuclear + attractors
     targets = np.array([cp.position for cp in ends]).reshape(-1, 3)
+    owner = np.arange(len(ends))
     # a path that enters the sphere in which Newton does not look for CPs
     # (settings.nuclear_radius) has reached that nucleus
     if nuclear_radii is None:
@@ -105,6 +108,13 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
     radii = np.concatenate([np.maximum(np.asarray(nuclear_radii, dtype=float),
                                        settings.capture_radius),
                             np.full(len(attractors), settings.capture_radius)])
+    cell = region.cell
+    if cell is not None and len(targets):
+        # periodic: a path may run to an image of an attractor
+        shifts = np.array(list(itertools.product((-1, 0, 1), repeat=3)), dtype=float) @ cell
+        targets = (targets[None, :, :] + shifts[:, None, :]).reshape(-1, 3)
+        radii = np.tile(radii, len(shifts))
+        owner = np.tile(owner, len(shifts))
     starts, firsts, owners = [], [], []
     for i, cp in enumerate(bonds):
         e3 = cp.eigenvectors[2]
@@ -126,6 +136,7 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
                              inside=region.in_grid, first_points=np.array(firsts))
         for k, (what, i) in enumerate(owners):
             t = int(bundle.target[k])
+            t = int(owner[t]) if t >= 0 else -1
             end = label_of(ends[t]) if t >= 0 else None
             if what == "b":
                 halves.setdefault(i, []).append((end, bundle.points[k], bundle.reason[k], t))
@@ -138,8 +149,7 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
         length = float(np.linalg.norm(np.diff(pts, axis=0), axis=1).sum())
         atoms = [e1, e2]
         both_atoms = (t1 >= 0 and t2 >= 0 and t1 < len(nuclear) and t2 < len(nuclear))
-        internuclear = (float(np.linalg.norm(ends[t1].position - ends[t2].position))
-                        if both_atoms else None)
+        internuclear = (float(np.linalg.norm(p1[-1] - p2[-1])) if both_atoms else None)
         if e1 is not None and e2 is not None and _key(e2) < _key(e1):
             atoms = [e2, e1]
             pts = pts[::-1]

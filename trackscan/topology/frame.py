@@ -224,7 +224,7 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
         pts, n_seeds = find_critical_points(field, grid, settings, region, level=level)
         allp = np.concatenate([found, pts])
         g = np.linalg.norm(field.evaluate(allp, 1)[1], axis=1) if len(allp) else np.zeros(0)
-        found = allp[merge_points(allp, g, settings.xtol)]
+        found = allp[merge_points(allp, g, settings.xtol, cell=region.cell)]
         cps = describe_points(field, found, settings)
         counts = {k: 0 for k in KINDS}
         for cp in nuclear + cps:

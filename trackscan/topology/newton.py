@@ -12,6 +12,8 @@ wants.
 
 from __future__ import annotations
 
+import itertools
+
 import numpy as np
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
@@ -92,7 +94,7 @@ def newton_search(field, x0, *, gtol: float, maxiter: int, max_step: float, insi
     return x, converged & alive, it
 
 
-def merge_points(x, score, tol: float):
+def merge_points(x, score, tol: float, *, cell=None):
     """Group points closer than `tol` (transitively) and keep one per group.
 
     Parameters
@@ -101,6 +103,9 @@ def merge_points(x, score, tol: float):
     score : (N,) float array
         The member with the smallest score represents its group.
     tol : float
+    cell : (3, 3) float array, optional
+        Periodic cell vectors (rows): points that coincide with a periodic
+        image of each other are merged too.
 
     Returns
     -------
@@ -111,7 +116,16 @@ def merge_points(x, score, tol: float):
     n = len(x)
     if n == 0:
         return np.zeros(0, dtype=np.int64)
-    pairs = cKDTree(x).query_pairs(tol, output_type="ndarray")
+    if cell is None:
+        pairs = cKDTree(x).query_pairs(tol, output_type="ndarray")
+    else:
+        tree = cKDTree(x)
+        found = []
+        for shift in itertools.product((-1, 0, 1), repeat=3):
+            t = np.asarray(shift, dtype=float) @ np.asarray(cell, dtype=float)
+            for i, js in enumerate(tree.query_ball_point(x + t, tol)):
+                found.extend((i, j) for j in js if j != i)
+        pairs = np.array(found, dtype=np.int64).reshape(-1, 2)
     graph = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(n, n))
     _, label = connected_components(graph, directed=False)
     order = np.lexsort((np.arange(n), np.asarray(score), label))

@@ -59,6 +59,19 @@ class Region:
         """Fractional indices of points."""
         return (np.asarray(x, dtype=float).reshape(-1, 3) - self.grid.origin) @ self._inv
 
+    @property
+    def cell(self):
+        """Periodic cell vectors (rows), or None for an isolated grid."""
+        return self.grid.cell if self.periodic else None
+
+    def wrap(self, x):
+        """Points folded into the home cell (unchanged if not periodic)."""
+        x = np.asarray(x, dtype=float).reshape(-1, 3)
+        if not self.periodic:
+            return x
+        u = np.mod(self.u(x), np.asarray(self.grid.shape, dtype=float))
+        return self.grid.origin + u @ self.grid.axes
+
     def inside(self, x):
         """True for points inside the search region (always, if periodic)."""
         if self.periodic:
@@ -151,18 +164,20 @@ def find_critical_points(field, grid, settings, region, *, level: int = 0,
     if n_seeds == 0:
         return np.zeros((0, 3)), 0
     # seeds closer than a tenth of a grid step lead to the same place
-    keep = merge_points(x0, np.arange(n_seeds), 0.1 * float(np.min(grid.spacing)))
+    x0 = region.wrap(x0)
+    keep = merge_points(x0, np.arange(n_seeds), 0.1 * float(np.min(grid.spacing)),
+                        cell=region.cell)
     x0 = x0[keep]
     x, conv, n_iter = newton_search(field, x0, gtol=settings.gtol, maxiter=settings.maxiter,
                                     max_step=settings.max_step, inside=region.inside,
                                     nuclei=nuclei, nuclear_radius=radii,
                                     floor=settings.density_floor)
     logger.debug("Newton: %d seeds, %d converged, %d iterations", len(x0), int(conv.sum()), n_iter)
-    x = x[conv]
+    x = region.wrap(x[conv])
     if len(x) == 0:
         return x, n_seeds
     g = np.linalg.norm(field.evaluate(x, 1)[1], axis=1)
-    keep = merge_points(x, g, settings.xtol)
+    keep = merge_points(x, g, settings.xtol, cell=region.cell)
     return x[keep], n_seeds
 
 
