@@ -306,3 +306,23 @@ def test_separation_floor_marks_too_close_pairs_unresolved():
     assert pair["separation_bohr"] < pair["separation_floor_bohr"]
     assert pair["rho_difference"] > pair["rho_floor"]
     assert ch["mechanism"] == "unresolved" and "separation" in ch["note"]
+
+
+def test_periodic_cp_wrapping_across_the_cell_face_keeps_its_track():
+    # SYNTHETIC periodic frames: a 4 bohr cubic cell; C1 and C2 sit near
+    # opposite faces, bonded through the face, and drift by 0.04 bohr per
+    # frame, so their bond CP wraps from x = 3.98 to x = 0.02.
+    frames = []
+    for k in range(4):
+        d = 0.04 * k - 0.06
+        p = np.array([[0.8 + d, 2.0, 2.0], [3.2 + d, 2.0, 2.0]])
+        x = (4.0 + d) % 4.0
+        f = S.frame(float(k), (6, 6), p, [S.bond_cp("b1", [x, 2.0, 2.0], (1, 2))], spacing=0.1)
+        f["grid"].update({"periodic": True, "shape": [40, 40, 40],
+                          "axes_bohr": [[0.1, 0, 0], [0, 0.1, 0], [0, 0, 0.1]]})
+        frames.append(f)
+    r = track_scan(frames)
+    assert r["changes"] == []
+    # raw distance 3.96 bohr across the face, far beyond the gate: only the
+    # minimum image keeps one track
+    assert {f["critical_points"][2]["track"] for f in r["frames"]} == {"B1"}

@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from trackscan.tracking.frames import displacement
 from trackscan.tracking.matching import pair_folds
 from trackscan.tracking.resolution import interpolation_floor, rho_floor, separation_floor
 from trackscan.tracking.structures import end_label, same_structure_type, sort_ends
@@ -108,8 +109,8 @@ def analyse_step(k, a, b, ta, tb, match, *, settings) -> StepEvents:
                                  f"the catastrophe itself or close to it")
     deaths = [cp for cp in deaths if cp.kind != "degenerate"]
     births = [cp for cp in births if cp.kind != "degenerate"]
-    out.folds_lost, lost = pair_folds(deaths, gate=settings.fold_gate)
-    out.folds_born, born = pair_folds(births, gate=settings.fold_gate)
+    out.folds_lost, lost = pair_folds(deaths, gate=settings.fold_gate, cell=a.cell)
+    out.folds_born, born = pair_folds(births, gate=settings.fold_gate, cell=b.cell)
     for ida, idb, _ in match.pairs:
         cpa, cpb = by_a[ida], by_b[idb]
         if cpa.kind != "bond":
@@ -232,12 +233,14 @@ def _mark_noise(steps, views, tracks, aligned, settings):
                     s1.noise.append(note)
                     s2.noise.append(note)
         for lo, hi, _ in s1.folds_lost:
-            c1 = 0.5 * (aligned[k][lo.id] + aligned[k][hi.id])
+            c1 = aligned[k][lo.id] + 0.5 * displacement(aligned[k][lo.id], aligned[k][hi.id],
+                                                        views[k].cell)
             for lo2, hi2, _ in s2.folds_born:
                 if (lo2.kind, hi2.kind) != (lo.kind, hi.kind):
                     continue
-                c2 = 0.5 * (aligned[k + 2][lo2.id] + aligned[k + 2][hi2.id])
-                if np.linalg.norm(c1 - c2) > settings.fold_gate:
+                c2 = aligned[k + 2][lo2.id] + 0.5 * displacement(
+                    aligned[k + 2][lo2.id], aligned[k + 2][hi2.id], views[k + 2].cell)
+                if np.linalg.norm(displacement(c1, c2, views[k + 2].cell)) > settings.fold_gate:
                     continue
                 before, after = views[k], views[k + 2]
                 small = True

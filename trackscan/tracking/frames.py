@@ -15,7 +15,7 @@ import numpy as np
 
 from trackscan.errors import ConsistencyError, InputError
 
-__all__ = ["CPView", "FrameView", "view_frame", "KINDS", "ATTRACTOR_KINDS"]
+__all__ = ["CPView", "FrameView", "view_frame", "displacement", "KINDS", "ATTRACTOR_KINDS"]
 
 #: Critical-point kinds of the contract, in order of the Morse index.
 KINDS = ("nuclear", "non_nuclear", "bond", "ring", "cage", "degenerate")
@@ -99,6 +99,8 @@ class FrameView:
         Largest grid spacing of the frame (nan when unknown).
     significant_digits : int or None
         Printed precision of the density values, when the frame records it.
+    cell : (3, 3) ndarray or None, bohr
+        Periodic cell (rows: cell vectors) when the frame is periodic.
     """
 
     listed: int
@@ -112,6 +114,7 @@ class FrameView:
     poincare_hopf_holds: bool | None
     spacing: float
     significant_digits: int | None
+    cell: np.ndarray | None = None
 
     def of_kind(self, kind: str) -> list:
         """Critical points of one kind, in frame order."""
@@ -213,6 +216,15 @@ def view_frame(frame: dict, listed: int) -> FrameView:
         spacing = max(_float(s) for s in spacing)
     spacing = _float(spacing)
     digits = grid.get("significant_digits")
+    cell = None
+    if grid.get("periodic"):
+        try:
+            cell = np.asarray(grid["axes_bohr"], dtype=np.float64).reshape(3, 3) * \
+                np.asarray(grid["shape"], dtype=np.float64).reshape(3, 1)
+        except (KeyError, TypeError, ValueError):
+            raise InputError(f"{where}: a periodic frame needs grid axes_bohr and shape") from None
+        if abs(np.linalg.det(cell)) < 1e-12:
+            raise InputError(f"{where}: the periodic cell is degenerate")
     ph = frame.get("poincare_hopf") or {}
     holds = ph.get("holds")
     return FrameView(
@@ -220,7 +232,17 @@ def view_frame(frame: dict, listed: int) -> FrameView:
         positions=positions, cps=tuple(cps), bond_ends=bond_ends,
         complete=bool(frame.get("complete", True)) and holds is not False,
         poincare_hopf_holds=None if holds is None else bool(holds),
-        spacing=spacing, significant_digits=None if digits is None else int(digits))
+        spacing=spacing, significant_digits=None if digits is None else int(digits),
+        cell=cell)
+
+
+def displacement(a, b, cell=None) -> np.ndarray:
+    """``b - a`` (broadcasting), by the minimum image when `cell` is given."""
+    d = np.asarray(b, dtype=np.float64) - np.asarray(a, dtype=np.float64)
+    if cell is None:
+        return d
+    f = d @ np.linalg.inv(cell)
+    return (f - np.round(f)) @ cell
 
 
 def check_same_atoms(views) -> None:

@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
-from trackscan.tracking.frames import KINDS, MORSE_INDEX
+from trackscan.tracking.frames import KINDS, MORSE_INDEX, displacement
 
 __all__ = ["StepMatch", "match_step", "assign_tracks", "pair_folds", "TRACK_PREFIX"]
 
@@ -75,7 +75,8 @@ def match_step(a, b, aligned_a, aligned_b, *, settings):
 
     Notes
     -----
-    Nuclear attractors are matched by their atom.  Every other kind is
+    Nuclear attractors are matched by their atom.  Periodic frames measure
+    distances by the minimum image.  Every other kind is
     matched by the Hungarian method on the distance matrix (scipy
     ``linear_sum_assignment``) [1]_; pairs beyond the gate cost a large
     constant, so the assignment first minimises the number of such pairs and
@@ -86,7 +87,9 @@ def match_step(a, b, aligned_a, aligned_b, *, settings):
     .. [1] H. W. Kuhn, "The Hungarian method for the assignment problem",
        Naval Res. Logist. Q. 2, 83-97 (1955). :DOI:`10.1002/nav.3800020109`
     """
-    disp = np.linalg.norm(aligned_b["__nuclei__"] - aligned_a["__nuclei__"], axis=1)
+    cell = b.cell if (a.cell is not None and b.cell is not None) else None
+    disp = np.linalg.norm(displacement(aligned_a["__nuclei__"], aligned_b["__nuclei__"], cell),
+                          axis=1)
     gate = float(settings.match_gate + (disp.max() if len(disp) else 0.0))
     out = StepMatch(gate=gate)
     for kind in KINDS:
@@ -101,7 +104,8 @@ def match_step(a, b, aligned_a, aligned_b, *, settings):
                 other = by_atom_b.get(atom)
                 if other is not None and other.id not in used:
                     used.add(other.id)
-                    dist = float(np.linalg.norm(aligned_a[cp.id] - aligned_b[other.id]))
+                    dist = float(np.linalg.norm(displacement(aligned_a[cp.id],
+                                                             aligned_b[other.id], cell)))
                     out.pairs.append((cp.id, other.id, dist))
                 else:
                     out.deaths.append(cp.id)
@@ -113,7 +117,7 @@ def match_step(a, b, aligned_a, aligned_b, *, settings):
             continue
         pa = np.array([aligned_a[cp.id] for cp in ca])
         pb = np.array([aligned_b[cp.id] for cp in cb])
-        dist = np.linalg.norm(pa[:, None, :] - pb[None, :, :], axis=2)
+        dist = np.linalg.norm(displacement(pa[:, None, :], pb[None, :, :], cell), axis=2)
         cost = dist.copy()
         if kind == "bond":
             ka = [_bond_key(a.bond_ends.get(cp.id, ())) for cp in ca]
@@ -171,7 +175,7 @@ def assign_tracks(views, matches):
     return tracks
 
 
-def pair_folds(cps, *, gate):
+def pair_folds(cps, *, gate, cell=None):
     """Pair critical points born (or lost) together into folds.
 
     Parameters
@@ -181,6 +185,8 @@ def pair_folds(cps, *, gate):
         step (all from the earlier frame).
     gate : float, bohr
         Largest distance between the two members of a pair.
+    cell : (3, 3) ndarray, optional
+        Periodic cell: distances by the minimum image.
 
     Returns
     -------
@@ -199,7 +205,7 @@ def pair_folds(cps, *, gate):
                 continue
             if abs(MORSE_INDEX[p.kind] - MORSE_INDEX[q.kind]) != 1:
                 continue
-            d = float(np.linalg.norm(p.position - q.position))
+            d = float(np.linalg.norm(displacement(p.position, q.position, cell)))
             if d <= gate:
                 lo, hi = (p, q) if MORSE_INDEX[p.kind] < MORSE_INDEX[q.kind] else (q, p)
                 cand.append((d, lo.id, hi.id, lo, hi))

@@ -85,7 +85,11 @@ def track_scan(frames, *, settings=None, unit=""):
     sign = -1 if direction == "descending" else 1
     order = sorted(range(len(views)), key=lambda i: sign * views[i].value)
     views = [views[i] for i in order]
-    transforms = chain_alignments([v.positions for v in views])
+    if any(v.cell is not None for v in views):
+        # a periodic cell fixes the orientation; nuclei may wrap, so no Kabsch
+        transforms = [(np.eye(3), np.zeros(3)) for _ in views]
+    else:
+        transforms = chain_alignments([v.positions for v in views])
     aligned = []
     for v, t in zip(views, transforms):
         pos = {cp.id: apply_transform(cp.position, t) for cp in v.cps}
