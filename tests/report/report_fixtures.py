@@ -86,6 +86,7 @@ def _frame(i, d):
 def ring_opening_scan() -> dict:
     """The synthetic scan result (a fresh deep copy each call)."""
     frames = [_frame(i, d) for i, d in enumerate(VALUES)]
+    frames[1]["refine"] = {"round": 1, "method": "fold", "bracket": [1.5, 1.9]}
     return copy.deepcopy({
         "schema": "trackscan.scan/1",
         "scan": {"name": "synthetic-ring-opening",
@@ -101,8 +102,10 @@ def ring_opening_scan() -> dict:
                         "fold_with": "T-r1"},
                        {"kind": "ring_lost", "cp": "r1", "track": "T-r1", "atoms": [1, 2, 3],
                         "fold_with": "T-b12"}],
-            "evaluations": 4, "note": "", "structure_type_changed": True,
-            "uncertainty": 0.0123,
+            "evaluations": 1, "note": "", "structure_type_changed": True,
+            "uncertainty": {"half_width": 0.1, "model_error": 0.0123},
+            "refine": {"initial_bracket": [1.5, 1.9], "tolerance": 0.01, "converged": False,
+                       "bisection_evaluations": 6},
             "resolution": {"spacing_bohr": [0.3, 0.3], "rho_floor": [1e-6, 1e-6],
                            "interpolation_floor": [2.4e-4, 2.4e-4], "margin": 37.5,
                            "resolved": True,

@@ -63,10 +63,12 @@ def _check_summary(header, rows, scan):
     for row, change in zip(rows, scan["changes"]):
         lo, hi = numbers(row[col["Bracket"]])
         assert shown_equals(lo, change["bracket"][0]) and shown_equals(hi, change["bracket"][1])
-        est, unc = numbers(row[col["Estimate ± uncertainty"]])
+        est, model, half = numbers(row[col["Estimate ± uncertainty"]])
         assert shown_equals(est, change["estimate"])
-        assert shown_equals(unc, change["uncertainty"])
-        assert numbers(row[col["Evaluations"]]) == [str(change["evaluations"])]
+        assert shown_equals(model, change["uncertainty"]["model_error"])
+        assert shown_equals(half, change["uncertainty"]["half_width"])
+        assert numbers(row[col["Evaluations"]]) == [str(change["evaluations"]),
+                                                    str(change["refine"]["bisection_evaluations"])]
         assert row[col["Mechanism"]] == change["mechanism"]
         assert row[col["Estimate method"]] == change["estimate_method"]
         assert "bond path C1–C2 breaks" in row[col["Events"]]
@@ -92,6 +94,8 @@ def _check_frames(header, rows, scan):
         assert shown_equals(row[col["Energy (hartree)"]], f["energy"])
         if f["warnings"]:
             assert f["warnings"][0] in row[col["Warnings"]]
+        assert row[col["Added by"]] == (f"refinement, round {f['refine']['round']}"
+                                        if "refine" in f else "scan")
 
 
 def test_html_tables_equal_scan_json(report):
@@ -195,7 +199,10 @@ def test_csv_files_load_and_hold_scan_numbers(report):
         assert float(row["bracket_low"]) == change["bracket"][0]
         assert float(row["bracket_high"]) == change["bracket"][1]
         assert float(row["estimate"]) == change["estimate"]
-        assert float(row["uncertainty"]) == change["uncertainty"]
+        assert float(row["uncertainty"]) == change["uncertainty"]["model_error"]
+        assert row["uncertainty_origin"] == "model"
+        assert float(row["half_bracket"]) == pytest.approx(change["uncertainty"]["half_width"])
+        assert int(row["bisection_evaluations"]) == change["refine"]["bisection_evaluations"]
         assert int(row["evaluations"]) == change["evaluations"]
         assert row["mechanism"] == change["mechanism"]
         assert json.loads(row["resolution"]) == change["resolution"]

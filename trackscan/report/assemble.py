@@ -12,7 +12,7 @@ from trackscan import __version__
 from trackscan.report import density_map, graphs, plots, tables
 from trackscan.report.document import BulletList, Document, Paragraph, Section, Table
 from trackscan.report.scan_data import ScanData
-from trackscan.report.wording import change_words, describe_value
+from trackscan.report.wording import change_words, describe_value, refine_words
 
 __all__ = ["build_document", "CAUTIONS"]
 
@@ -151,4 +151,6 @@ def _change_line(scan: ScanData, change, k: int) -> str:
     where = ""
     if before is not None and after is not None:
         where = f" between frames {before.get('index')} and {after.get('index')}"
-    return f"Change {k}{where} ({mech}): {change_words(change, scan)}."
+    text = f"Change {k}{where} ({mech}): {change_words(change, scan)}."
+    refined = refine_words(change, scan)
+    return f"{text} {refined}" if refined else text

@@ -66,6 +66,7 @@ def counts_plot(scan: ScanData):
         return None
     x = np.array([f["value"] for f in frames], float)
     kinds = [k for k in CP_KINDS if any(f["counts"].get(k, 0) for f in frames)]
+    refined = np.array([isinstance(f.get("refine"), dict) for f in frames])
     fig = new_figure(7.5, 3.8)
     ax = fig.add_subplot()
     handles = []
@@ -74,12 +75,17 @@ def counts_plot(scan: ScanData):
         y = np.array([f["counts"].get(kind, 0) for f in frames], float)
         offset = 0.06 * (j - (len(kinds) - 1) / 2)
         ax.step(x, y + offset, where="post", color=st["color"], lw=1.4)
-        ax.scatter(x, y + offset, marker=st["marker"], color=st["color"], s=st["size"] * 0.6,
-                   zorder=3, edgecolors="black" if kind == "degenerate" else "none")
+        for sel, face in ((~refined, st["color"]), (refined, "white")):
+            if sel.any():
+                ax.scatter(x[sel], y[sel] + offset, marker=st["marker"], facecolors=face,
+                           edgecolors=st["color"], s=st["size"] * 0.6, zorder=3, linewidths=1.0)
         handles.append(Line2D([], [], color=st["color"], marker=st["marker"], lw=1.4,
                               label=st["label"].split(" (")[0]))
     _mark_changes(ax, scan)
     handles.append(Line2D([], [], color="none", label="markers: sampled frames"))
+    if refined.any():
+        handles.append(Line2D([], [], marker="o", ls="none", markerfacecolor="white",
+                              markeredgecolor="black", label="open marker: added by refinement"))
     ax.set_xlabel(_xlabel(scan))
     ax.set_ylabel("number of CPs")
     ax.yaxis.get_major_locator().set_params(integer=True)

@@ -21,7 +21,7 @@ from trackscan.report.scan_data import CP_KINDS, ScanData, frame_energy
 from trackscan.report.wording import (change_decimals, change_words, coord_decimals,
                                       estimate_decimals, describe_value, fmt_coord,
                                       fmt_sig, fmt_uncertainty, resolution_words,
-                                      uncertainty_of)
+                                      uncertainties, uncertainty_of)
 from trackscan.units import BOHR_IN_ANGSTROM
 
 __all__ = ["summary_table", "pair_table", "resolution_table", "frame_table", "warning_table",
@@ -29,9 +29,9 @@ __all__ = ["summary_table", "pair_table", "resolution_table", "frame_table", "wa
            "CHANGES_CSV_HEADER", "CRITICAL_POINTS_CSV_HEADER"]
 
 CHANGES_CSV_HEADER = ("change", "frame_before", "frame_after", "bracket_low", "bracket_high",
-                      "estimate", "uncertainty", "uncertainty_origin", "estimate_method",
-                      "mechanism", "events", "evaluations", "structure_type_changed",
-                      "resolution", "note")
+                      "estimate", "uncertainty", "uncertainty_origin", "half_bracket",
+                      "estimate_method", "mechanism", "events", "evaluations",
+                      "bisection_evaluations", "structure_type_changed", "resolution", "note")
 
 CRITICAL_POINTS_CSV_HEADER = ("frame", "coordinate", "id", "track", "kind", "rank", "signature",
                               "x_angstrom", "y_angstrom", "z_angstrom", "rho", "laplacian",
@@ -53,17 +53,21 @@ def summary_table(scan: ScanData) -> Table:
         bracket = change.get("bracket")
         btxt = (f"{fmt_coord(bracket[0], d)} → {fmt_coord(bracket[1], d)}"
                 if bracket else "—")
-        unc, origin = uncertainty_of(change)
         est = change.get("estimate")
         etxt = fmt_coord(est, estimate_decimals(change))
-        if unc is not None and etxt != "—":
-            etxt += f" ± {fmt_uncertainty(unc)} ({origin})"
+        if etxt != "—":
+            etxt += " " + "; ".join(f"± {fmt_uncertainty(u)} ({label})"
+                                    for u, label in uncertainties(change))
         mech = str(change.get("mechanism") or "—")
         if change.get("mechanism_candidate") and change["mechanism_candidate"] != mech:
             mech += f" (looks like {change['mechanism_candidate']})"
+        evals = describe_value(change.get("evaluations"))
+        bis = (change.get("refine") or {}).get("bisection_evaluations") \
+            if isinstance(change.get("refine"), dict) else None
+        if isinstance(bis, int) and evals != "—":
+            evals += f" (bisection: {bis})"
         rows.append((str(k), btxt, etxt, str(change.get("estimate_method") or "—"),
-                     mech, change_words(change, scan),
-                     describe_value(change.get("evaluations"))))
+                     mech, change_words(change, scan), evals))
     return Table("summary", header, tuple(rows),
                  "Structural changes along the scan. The bracket runs from the last frame "
                  "with the old structure to the first frame with the new one.")
@@ -149,6 +153,9 @@ def frame_table(scan: ScanData) -> Table:
               "deg.", "n − b + r − c", "Expected", "Holds"]
     if has_spacing:
         header.append("Grid spacing (bohr)")
+    has_refined = any(isinstance(f.get("refine"), dict) for f in frames)
+    if has_refined:
+        header.append("Added by")
     if has_energy:
         header.append("Energy (hartree)")
     header.append("Warnings")
@@ -163,6 +170,10 @@ def frame_table(scan: ScanData) -> Table:
                 describe_value(ph.get("holds"))]
         if has_spacing:
             row.append(describe_value(_spacing(f), 4))
+        if has_refined:
+            info = f.get("refine")
+            row.append(f"refinement, round {info.get('round', '?')}" if isinstance(info, dict)
+                       else "scan")
         if has_energy:
             row.append(fmt_sig(frame_energy(f), 10))
         row.append("; ".join(_frame_warnings(f, scan)) or "—")
@@ -238,12 +249,15 @@ def change_csv_rows(scan: ScanData) -> list:
         between = change.get("between") or [None, None]
         bracket = change.get("bracket") or [None, None]
         unc, origin = uncertainty_of(change)
+        half = (abs(bracket[1] - bracket[0]) / 2.0
+                if all(isinstance(b, (int, float)) for b in bracket) else None)
+        info = change.get("refine") if isinstance(change.get("refine"), dict) else {}
         res = change.get("resolution")
         rows.append(tuple(_csv_value(v) for v in (
             k, between[0], between[1], bracket[0], bracket[1], change.get("estimate"),
-            unc, origin, change.get("estimate_method"), change.get("mechanism"),
+            unc, origin, half, change.get("estimate_method"), change.get("mechanism"),
             change_words(change, scan), change.get("evaluations"),
-            change.get("structure_type_changed"),
+            info.get("bisection_evaluations"), change.get("structure_type_changed"),
             None if res is None else json.dumps(res, sort_keys=True, ensure_ascii=False),
             change.get("note"))))
     return rows

@@ -12,7 +12,8 @@ from trackscan.report.scan_data import ScanData, cp_by_id
 
 __all__ = ["fmt_coord", "coord_decimals", "change_decimals", "estimate_decimals",
            "fmt_sig", "fmt_uncertainty", "event_words",
-           "change_words", "resolution_words", "describe_value", "pretty_key", "uncertainty_of"]
+           "change_words", "resolution_words", "describe_value", "pretty_key", "uncertainty_of",
+           "uncertainties", "refine_words"]
 
 def coord_decimals(*values, width=None) -> int:
     """Decimals needed to show coordinate values so a bracket's ends stay distinct.
@@ -48,9 +49,9 @@ def change_decimals(change) -> int:
 def estimate_decimals(change) -> int:
     """Decimals for a change's estimate: enough for its bracket and its uncertainty."""
     d = change_decimals(change)
-    unc, _ = uncertainty_of(change)
-    if unc is not None and unc > 0:
-        d = max(d, min(10, 1 - math.floor(math.log10(unc))))
+    for unc, _ in uncertainties(change):
+        if unc > 0:
+            d = max(d, min(10, 1 - math.floor(math.log10(unc))))
     return d
 
 
@@ -78,24 +79,35 @@ def fmt_uncertainty(u) -> str:
     return f"{float(u):.2g}"
 
 
-def uncertainty_of(change):
-    """(uncertainty, origin) of a change's estimate, or (None, "").
+_UNCERTAINTY_LABELS = {"model_error": "model", "half_width": "half bracket"}
 
-    The change's own ``uncertainty`` wins (a number, or a dict whose largest
-    numeric entry is taken); otherwise half the bracket width.
+
+def uncertainties(change) -> list:
+    """Uncertainties of a change's estimate: ``[(value, label), ...]``, primary first.
+
+    A number in ``uncertainty`` is one ("estimated"); a dict (refinement:
+    ``model_error``, ``half_width``) gives one entry per finite value, the
+    model's own error first.  Without any, half the bracket width.
     """
     u = change.get("uncertainty")
+    out = []
     if isinstance(u, dict):
-        nums = {k: v for k, v in u.items() if _finite(v)}
-        if nums:
-            key = max(nums, key=lambda k: abs(nums[k]))
-            return abs(float(nums[key])), pretty_key(key)
+        keys = sorted((k for k in u if _finite(u[k])),
+                      key=lambda k: (k != "model_error", k != "half_width", str(k)))
+        out = [(abs(float(u[k])), _UNCERTAINTY_LABELS.get(k, pretty_key(k))) for k in keys]
     elif _finite(u):
-        return abs(float(u)), "estimated"
-    bracket = change.get("bracket")
-    if isinstance(bracket, (list, tuple)) and len(bracket) == 2 and all(map(_finite, bracket)):
-        return abs(float(bracket[1]) - float(bracket[0])) / 2.0, "half bracket"
-    return None, ""
+        out = [(abs(float(u)), "estimated")]
+    if not out:
+        bracket = change.get("bracket")
+        if isinstance(bracket, (list, tuple)) and len(bracket) == 2 and all(map(_finite, bracket)):
+            out = [(abs(float(bracket[1]) - float(bracket[0])) / 2.0, "half bracket")]
+    return out
+
+
+def uncertainty_of(change):
+    """(uncertainty, origin) of a change's estimate, the primary one, or (None, "")."""
+    u = uncertainties(change)
+    return u[0] if u else (None, "")
 
 
 def pretty_key(key) -> str:
@@ -264,6 +276,35 @@ def resolution_words(change, scan: ScanData) -> str:
     if rest:
         parts.append(describe_value(rest, 4))
     return "; ".join(parts)
+
+
+def refine_words(change, scan: ScanData) -> str:
+    """What refinement did for a change, in one sentence (empty when it did nothing)."""
+    info = change.get("refine")
+    if not isinstance(info, dict):
+        return ""
+    unit = f" {scan.unit_symbol}" if scan.unit_symbol else ""
+    d = change_decimals(change)
+    parts = []
+    base = info.get("initial_bracket")
+    bracket = change.get("bracket")
+    n = change.get("evaluations")
+    if isinstance(base, (list, tuple)) and len(base) == 2 and bracket:
+        text = (f"Refinement narrowed the bracket from {fmt_coord(base[0], d)} → "
+                f"{fmt_coord(base[1], d)} to {fmt_coord(bracket[0], d)} → "
+                f"{fmt_coord(bracket[1], d)}{unit}")
+        if isinstance(n, int):
+            text += f" with {n} new frame{'s' if n != 1 else ''}"
+        parts.append(text)
+    if isinstance(info.get("bisection_evaluations"), int) and _finite(info.get("tolerance")):
+        parts.append(f"plain bisection needs {info['bisection_evaluations']} for the "
+                     f"tolerance {fmt_sig(info['tolerance'], 3)}{unit}")
+    if "converged" in info:
+        parts.append("tolerance reached" if info["converged"] else "tolerance NOT reached")
+    fit = info.get("fold_fit")
+    if isinstance(fit, dict) and fit.get("outside_bracket"):
+        parts.append("the fold extrapolation fell outside the bracket and was not used")
+    return ("; ".join(parts) + ".") if parts else ""
 
 
 def change_words(change, scan: ScanData) -> str:
