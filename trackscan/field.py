@@ -9,6 +9,11 @@ bohr; ``value`` returns ``(N,)``, ``gradient`` ``(N, 3)``, ``hessian``
 ``(N, 3, 3)``.  ``evaluate(points, order)`` returns the tuple of the first
 ``order + 1`` of these in one pass (implementations should make it the fast
 path).
+
+Implementations: :class:`trackscan.fields.GridField` (the interpolated grid,
+promolecule subtracted), :class:`trackscan.fields.SphericalSum` (analytic
+Gaussian or Slater sums), :class:`trackscan.fields.LocalizedPromolecule` and
+:class:`trackscan.promolecule.Promolecule`.
 """
 
 from __future__ import annotations

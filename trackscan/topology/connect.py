@@ -31,7 +31,7 @@ import numpy as np
 from trackscan.topology.paths import trace_paths
 from trackscan.topology.results import BondPath
 
-__all__ = ["connect_points", "RING_RAYS", "PATH_OFFSET"]
+__all__ = ["connect_points", "end_key", "RING_RAYS", "PATH_OFFSET"]
 
 PATH_OFFSET = 0.02
 """Distance (bohr) from the CP at which each gradient path starts."""
@@ -58,15 +58,16 @@ def _cyclic_sequence(labels):
     # canonical: start at the smallest, go towards the smaller neighbour
     uniq = list(dict.fromkeys(out))
     if len(uniq) != len(out):
-        return sorted(set(out), key=_key)
-    i = min(range(len(out)), key=lambda k: _key(out[k]))
+        return sorted(set(out), key=end_key)
+    i = min(range(len(out)), key=lambda k: end_key(out[k]))
     out = out[i:] + out[:i]
-    if len(out) > 2 and _key(out[-1]) < _key(out[1]):
+    if len(out) > 2 and end_key(out[-1]) < end_key(out[1]):
         out = [out[0]] + out[1:][::-1]
     return out
 
 
-def _key(label):
+def end_key(label):
+    """Sort key of an attractor label: atom numbers first, then NNA ids."""
     return (0, label, "") if isinstance(label, int) else (1, 0, str(label))
 
 
@@ -150,7 +151,7 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
         atoms = [e1, e2]
         both_atoms = (t1 >= 0 and t2 >= 0 and t1 < len(nuclear) and t2 < len(nuclear))
         internuclear = (float(np.linalg.norm(p1[-1] - p2[-1])) if both_atoms else None)
-        if e1 is not None and e2 is not None and _key(e2) < _key(e1):
+        if e1 is not None and e2 is not None and end_key(e2) < end_key(e1):
             atoms = [e2, e1]
             pts = pts[::-1]
         elif e1 is None and e2 is not None:

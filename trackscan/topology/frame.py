@@ -20,7 +20,7 @@ from trackscan.elements import symbol
 from trackscan.grid import DensityGrid
 from trackscan.progress import report as progress_report
 from trackscan.settings import AnalysisSettings
-from trackscan.topology.connect import _key, connect_points
+from trackscan.topology.connect import end_key, connect_points
 from trackscan.topology.graph import build_graph
 from trackscan.topology.newton import merge_points
 from trackscan.topology.results import (COUNT_KEYS, ID_PREFIX, KINDS, BondPath, CriticalPoint,
@@ -263,13 +263,13 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
     timings["paths"] = time.perf_counter() - t2
     # deterministic ids
     order = sorted(range(len(by["bond"])),
-                   key=lambda i: (tuple(_key(a) if a is not None else (2, 0, "")
+                   key=lambda i: (tuple(end_key(a) if a is not None else (2, 0, "")
                                         for a in by["bond"][i].atoms), _pos_key(by["bond"][i])))
     bonds = [by["bond"][i] for i in order]
     paths = [paths[i] for i in order]
     for i, cp in enumerate(bonds, 1):
         cp.id = f"b{i}"
-    rings_sorted = sorted(by["ring"], key=lambda cp: (tuple(sorted(_key(a) for a in cp.atoms)),
+    rings_sorted = sorted(by["ring"], key=lambda cp: (tuple(sorted(end_key(a) for a in cp.atoms)),
                                                       _pos_key(cp)))
     for i, cp in enumerate(rings_sorted, 1):
         cp.id = f"r{i}"
