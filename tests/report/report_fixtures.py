@@ -114,6 +114,8 @@ def ring_opening_scan() -> dict:
                                       "rho_difference": 0.02, "rho_floor": 5.3e-4,
                                       "margin": 37.5}]},
         }],
-        "early_warnings": [{"track": "T-b12", "frame": 1,
+        "early_warnings": [{"track": "T-b12", "atoms": [1, 2], "frames": [1],
+                            "indicators": ["ellipticity"], "projected": {"ellipticity": 1.8512},
+                            "change_between": [1, 2],
                             "message": "ellipticity of C1–C2 rising steeply"}],
     })

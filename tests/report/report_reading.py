@@ -13,8 +13,15 @@ from html.parser import HTMLParser
 NUMBER = re.compile(r"[-−]?\d+(?:\.\d+)?(?:e[-+]?\d+)?")
 
 
+VOID = {"meta", "img", "br", "hr", "link", "input", "col", "area", "base", "source", "wbr"}
+
+
 class TableReader(HTMLParser):
-    """Collects every <table id=...> as header + rows of cell text, and every <img>."""
+    """Collects every <table id=...> as header + rows of cell text, and every <img>.
+
+    ``errors`` lists tags closed out of order or never closed (HTML that
+    html.parser accepts but is not well nested).
+    """
 
     def __init__(self):
         super().__init__(convert_charrefs=True)
@@ -23,10 +30,12 @@ class TableReader(HTMLParser):
         self._row = None
         self._cell = None
         self._stack = []
+        self.errors = []
 
     def handle_starttag(self, tag, attrs):
         attrs = dict(attrs)
-        self._stack.append(tag)
+        if tag not in VOID:
+            self._stack.append(tag)
         if tag == "table":
             self._table = {"header": [], "rows": []}
             self.tables[attrs.get("id")] = self._table
@@ -43,6 +52,8 @@ class TableReader(HTMLParser):
     def handle_endtag(self, tag):
         if self._stack and self._stack[-1] == tag:
             self._stack.pop()
+        else:
+            self.errors.append(f"</{tag}> closes {self._stack[-1] if self._stack else 'nothing'}")
         if tag in ("td", "th") and self._cell is not None:
             self._row.append(("th" if tag == "th" else "td", "".join(self._cell).strip()))
             self._cell = None
@@ -64,6 +75,7 @@ def read_html(text: str) -> TableReader:
     reader = TableReader()
     reader.feed(text)
     reader.close()
+    reader.errors += [f"<{t}> never closed" for t in reader._stack]
     return reader
 
 

@@ -101,6 +101,7 @@ def _check_frames(header, rows, scan):
 def test_html_tables_equal_scan_json(report):
     scan = report[0]
     page = _html(report)
+    assert page.errors == []
     summary = page.tables["table-summary"]
     _check_summary(summary["header"], summary["rows"], scan)
     frames = page.tables["table-frames"]
@@ -145,6 +146,17 @@ def test_coalescing_pair_table_equals_scan_json(report):
     bond = next(r for r in table["rows"] if r[0].startswith("bond"))
     assert shown_equals(bond[col["ε"]], cps["b3"]["ellipticity"])
     assert bond[col["Atoms"]] == "C1–C2"
+
+
+def test_early_warnings_table_equals_scan_json(report):
+    scan = report[0]
+    rows = _html(report).tables["table-early_warnings"]["rows"]
+    assert len(rows) == len(scan["early_warnings"])
+    for row, w in zip(rows, scan["early_warnings"]):
+        assert row[0] == w["message"] and row[1] == "C1–C2"
+        projected = numbers(row[2].split("projected zero:")[1].split(";")[0])
+        assert len(projected) == len(w["projected"]) and all(shown_equals(x, v) for x, v in zip(projected, w["projected"].values()))
+        assert "followed by the change between frames 1 and 2" in row[2]
 
 
 def test_resolution_limit_given_for_each_change(report):
