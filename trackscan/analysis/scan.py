@@ -4,11 +4,13 @@ from __future__ import annotations
 
 import logging
 import os
+from concurrent.futures import ProcessPoolExecutor, as_completed
 from pathlib import Path
 
 from trackscan import __version__
 from trackscan.analysis.runner import analyse_frames
 from trackscan.analysis.scanjson import SCHEMA
+from trackscan.errors import InputError
 from trackscan.progress import report
 from trackscan.tracking import TrackingSettings, track_scan
 
@@ -17,8 +19,21 @@ __all__ = ["analyze_scan", "ensure_frames"]
 logger = logging.getLogger(__name__)
 
 
-def ensure_frames(manifest, *, progress=None) -> str:
+def _generate(gen, value, path):
+    """Worker: make one frame's cube (module level, so it pickles)."""
+    gen.generate(value, path)
+    return value
+
+
+def ensure_frames(manifest, *, jobs=1, progress=None) -> str:
     """Generate the manifest's missing generated frames; name the density source.
+
+    Parameters
+    ----------
+    manifest : ScanManifest
+    jobs : int
+        Worker processes for the generator (1: in this process).
+    progress : callable, optional
 
     Returns
     -------
@@ -33,8 +48,6 @@ def ensure_frames(manifest, *, progress=None) -> str:
     GeneratorError
         The generator failed.
     """
-    from trackscan.errors import InputError
-
     missing = [e for e in manifest.frames if not Path(e.file).is_file()]
     gen = None
     if manifest.generator is not None:
@@ -44,10 +57,20 @@ def ensure_frames(manifest, *, progress=None) -> str:
     for e in missing:
         if not e.generated or gen is None:
             raise InputError("frame file does not exist", e.file)
-    for n, e in enumerate(missing, start=1):
-        report(progress, "generate frames", n - 1, len(missing), f"value {e.value:g}")
-        gen.generate(e.value, e.file)
-        report(progress, "generate frames", n, len(missing), f"value {e.value:g}")
+    total = len(missing)
+    if missing:
+        logger.info("generating %d frame(s) with %s", total, gen.describe())
+        report(progress, "generate frames", 0, total)
+    if jobs > 1 and total > 1:
+        with ProcessPoolExecutor(max_workers=min(jobs, total)) as pool:
+            futures = [pool.submit(_generate, gen, e.value, e.file) for e in missing]
+            for n, fut in enumerate(as_completed(futures), start=1):
+                value = fut.result()
+                report(progress, "generate frames", n, total, f"value {value:g}")
+    else:
+        for n, e in enumerate(missing, start=1):
+            _generate(gen, e.value, e.file)
+            report(progress, "generate frames", n, total, f"value {e.value:g}")
     if gen is not None:
         return gen.describe()
     return "cube files"
@@ -75,7 +98,9 @@ def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None
         ``early_warnings``, ``bond_tracks``, ``structures`` and ``direction``.
     """
     tracking = tracking or TrackingSettings()
-    source = ensure_frames(manifest, progress=progress)
+    if jobs < 1:
+        raise InputError(f"--jobs must be at least 1, got {jobs}")
+    source = ensure_frames(manifest, jobs=jobs, progress=progress)
     cache_dir = None if out_dir is None else Path(out_dir) / ".cache"
     frames = analyse_frames([e.file for e in manifest.frames], manifest.analysis,
                             periodic=manifest.periodic, jobs=jobs, cache_dir=cache_dir,
