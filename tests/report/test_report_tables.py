@@ -269,3 +269,13 @@ def test_cli_writes_report_next_to_scan(tmp_path, capsys):
     assert main(["report", str(tmp_path), "--no-date"]) == 0
     assert (tmp_path / "report.html").is_file() and (tmp_path / "report.md").is_file()
     assert "report.html" in capsys.readouterr().out
+
+
+def test_markdown_and_html_carry_the_same_tables(report):
+    page = _html(report)
+    md = read_markdown_tables(report[1].markdown.read_text(encoding="utf-8"))
+    html_tables = list(page.tables.values())
+    assert len(md) == len(html_tables)
+    for m, h in zip(md, html_tables):
+        assert m["header"] == h["header"]
+        assert m["rows"] == h["rows"]
