@@ -279,3 +279,11 @@ def test_markdown_and_html_carry_the_same_tables(report):
     for m, h in zip(md, html_tables):
         assert m["header"] == h["header"]
         assert m["rows"] == h["rows"]
+
+
+def test_progress_events_count_up_to_the_total(tmp_path):
+    events = []
+    write_report(ring_opening_scan(), tmp_path, date=None, progress=events.append)
+    assert {e.task for e in events} == {"report"}
+    done = [e.done for e in events]
+    assert done == sorted(done) and done[-1] == events[-1].total == 4 + 1 + 1

@@ -25,12 +25,15 @@ def add_arguments(parser) -> None:
 
 def run(args) -> int:
     """Write the report; prints the path of report.html."""
+    from trackscan.progress import TextProgress
     from trackscan.report import write_report
 
     src = Path(args.scan)
     out = Path(args.out) if args.out else (src if src.is_dir() else src.parent)
+    progress = TextProgress()
     files = write_report(src, out, source_dir=args.source_dir,
-                         date=None if args.no_date else "today")
+                         date=None if args.no_date else "today", progress=progress)
+    progress.close()
     print(f"report: {files.html}")
     print(f"        {files.markdown} ({len(files.images)} figures), {files.changes_csv.name}, "
           f"{files.critical_points_csv.name}")

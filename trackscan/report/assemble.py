@@ -9,12 +9,13 @@ from __future__ import annotations
 import logging
 
 from trackscan import __version__
+from trackscan.progress import report
 from trackscan.report import density_map, graphs, plots, tables
 from trackscan.report.document import BulletList, Document, Paragraph, Section, Table
 from trackscan.report.scan_data import ScanData
 from trackscan.report.wording import change_words, describe_value, refine_words
 
-__all__ = ["build_document", "CAUTIONS"]
+__all__ = ["build_document", "report_steps", "CAUTIONS", "TASK"]
 
 logger = logging.getLogger(__name__)
 
@@ -52,9 +53,14 @@ def _header_table(scan: ScanData, date) -> Table:
     return Table("header", ("Field", "Value"), tuple(rows), "")
 
 
-def _progress(progress, message):
-    if progress is not None:
-        progress(message)
+#: Progress task name of the report.
+TASK = "report"
+_PLOTS = 4
+
+
+def report_steps(scan: ScanData) -> int:
+    """Steps of a report for progress events: the plots, one per change, writing."""
+    return _PLOTS + len(scan.changes) + 1
 
 
 def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
@@ -66,13 +72,15 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
     date : str, optional
         Date shown in the header (None: no date).
     progress : callable, optional
-        Called with a short message before each figure.
+        Receives :class:`trackscan.progress.ProgressEvent` objects (task
+        ``"report"``) as figures are made.
 
     Returns
     -------
     Document
     """
     doc = Document(f"Structural changes along the scan “{scan.name}”")
+    step, total = 0, report_steps(scan)
     blocks = []
     if scan.scan.get("description"):
         blocks.append(Paragraph(str(scan.scan["description"]).strip()))
@@ -101,14 +109,16 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
                         "their derivatives in atomic units.")]
     for name, make in (("CP counts", plots.counts_plot), ("bond CP properties", plots.bond_cp_plot),
                        ("energy", plots.energy_plot), ("fold distances", plots.fold_distance_plot)):
-        _progress(progress, f"plot: {name}")
+        report(progress, TASK, step, total, f"plot: {name}")
+        step += 1
         fig = make(scan)
         if fig is not None:
             blocks.append(fig)
     doc.sections.append(Section("plots", "Along the scan", tuple(blocks)))
 
     for k, change in enumerate(scan.changes, 1):
-        _progress(progress, f"change {k}: molecular graphs and density map")
+        report(progress, TASK, step, total, f"change {k}: molecular graphs and density map")
+        step += 1
         blocks = [Paragraph(_change_line(scan, change, k))]
         pair = tables.pair_table(scan, change, k)
         if pair is not None:

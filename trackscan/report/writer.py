@@ -10,7 +10,8 @@ from pathlib import Path
 from trackscan import __version__
 from trackscan.io.atomic import write_bytes_atomic, write_text_atomic
 from trackscan.report import tables
-from trackscan.report.assemble import build_document
+from trackscan.progress import report
+from trackscan.report.assemble import TASK, build_document, report_steps
 from trackscan.report.html import render_html
 from trackscan.report.markdown import image_name, render_markdown
 from trackscan.report.scan_data import load_scan
@@ -50,7 +51,8 @@ def write_report(scan, out_dir, *, source_dir=None, date="today", progress=None)
         Date shown in the header: ``"today"`` (default, UTC, ISO format),
         any string, or None for no date (byte-identical reruns).
     progress : callable, optional, keyword-only
-        Called with a short message at each step.
+        Receives :class:`trackscan.progress.ProgressEvent` objects (task
+        ``"report"``).
 
     Returns
     -------
@@ -70,8 +72,8 @@ def write_report(scan, out_dir, *, source_dir=None, date="today", progress=None)
     doc = build_document(data, date=date, progress=progress)
     footer = (f"Made by trackscan {__version__} from scan.json"
               + (f" on {date}" if date else "") + ".")
-    if progress is not None:
-        progress("writing files")
+    steps = report_steps(data)
+    report(progress, TASK, steps - 1, steps, "writing files")
     changes_csv = out / "changes.csv"
     cps_csv = out / "critical_points.csv"
     tables.write_csv(changes_csv, tables.CHANGES_CSV_HEADER, tables.change_csv_rows(data))
@@ -86,4 +88,5 @@ def write_report(scan, out_dir, *, source_dir=None, date="today", progress=None)
     write_text_atomic(md, render_markdown(doc, footer=footer))
     html = out / "report.html"
     write_text_atomic(html, render_html(doc, footer=footer))
+    report(progress, TASK, steps, steps, str(html))
     return ReportFiles(html, md, changes_csv, cps_csv, tuple(images))
