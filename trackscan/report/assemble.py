@@ -29,8 +29,7 @@ CAUTIONS = (
     "of the wavefunction in the quantum-chemistry code for frames past the change.",
     "Grid spacing and the printed precision of the cube files limit how close to a "
     "catastrophe a grid can see: near a fold the two coalescing CPs differ in density by "
-    "a quantity that falls as the cube of their distance. The limit of each change is "
-    "given below.",
+    "a quantity that falls as the cube of their distance.",
 )
 
 
@@ -141,7 +140,10 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
             Paragraph("The analysis recorded no early warnings: nothing in this scan suggests "
                       "a change just outside it."),)))
 
-    blocks = [BulletList(CAUTIONS)]
+    limit = (" The limit of each change is given below." if scan.changes else
+             " This scan has no change; a pair of CPs closing in below the grid's resolution "
+             "would show as an early warning or an unresolved change.")
+    blocks = [BulletList(CAUTIONS[:-1] + (CAUTIONS[-1] + limit,))]
     if scan.changes:
         blocks.append(tables.resolution_table(scan))
     doc.sections.append(Section("cautions", "Cautions", tuple(blocks)))
