@@ -28,6 +28,7 @@ COMMANDS = [
     ("analyze", "trackscan.cli.analyze", "analyse all frames of a scan, track critical points and report structural changes"),
     ("report", "trackscan.cli.report", "write the change-point report (HTML, Markdown, CSV) of an analysed scan"),
     ("demo", "trackscan.cli.demo", "run a demo scan end to end (built-in model; no QC code needed) into reports/"),
+    ("refine", "trackscan.cli.refine", "narrow each structural change with new frames (fold extrapolation, bisection) or suggest where to compute them"),
 ]
 
 EXIT_OK = 0

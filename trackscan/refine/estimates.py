@@ -21,14 +21,15 @@ from __future__ import annotations
 
 import copy
 
-from trackscan.refine.indicators import fold_samples, fold_side
+from trackscan.refine.indicators import DEFAULT_GTOL, fold_samples, fold_side
 from trackscan.refine.loop import change_context
 from trackscan.refine.proposals import bisection_count, fit_fold
 
 __all__ = ["annotate_changes"]
 
 
-def annotate_changes(frames, changes, *, tolerance: float | None = None) -> list:
+def annotate_changes(frames, changes, *, tolerance: float | None = None,
+                     gtol: float = DEFAULT_GTOL) -> list:
     """Changes with estimate, method, evaluations and uncertainty filled in.
 
     Parameters
@@ -40,6 +41,8 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None) -> list
         The tracking result's changes.
     tolerance : float, optional
         The refine tolerance, recorded with each change.
+    gtol : float
+        Gradient tolerance the frames were analysed with.
 
     Returns
     -------
@@ -60,7 +63,7 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None) -> list
         info = {"initial_bracket": [float(x) for x in ctx.base]}
         side = fold_side(ch)
         if side is not None:
-            fit = fit_fold(fold_samples(frames, side), absent=side.absent)
+            fit = fit_fold(fold_samples(frames, side, gtol=gtol), absent=side.absent)
             if fit is not None:
                 info["fold_fit"] = fit.to_dict()
                 if lo < fit.estimate < hi:

@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 
 from trackscan.errors import InputError
 from trackscan.progress import report
-from trackscan.refine.indicators import fold_samples, fold_side, is_fold
+from trackscan.refine.indicators import DEFAULT_GTOL, fold_samples, fold_side, is_fold
 from trackscan.refine.proposals import (
     BISECTION, DECIMALS, FOLD, allocate_slots, bisection_count, propose_bisection, propose_fold,
 )
@@ -156,7 +156,8 @@ def _previous_delta(ctx: ChangeContext):
     return max(deltas) if deltas else None
 
 
-def propose_for_change(tracked_frames, ctx: ChangeContext, *, tolerance: float, n: int):
+def propose_for_change(tracked_frames, ctx: ChangeContext, *, tolerance: float, n: int,
+                       gtol: float = DEFAULT_GTOL):
     """Proposal for one open change (fold model when it applies, else bisection)."""
     ch = ctx.change
     v0, v1 = (float(x) for x in ch["bracket"])
@@ -165,14 +166,14 @@ def propose_for_change(tracked_frames, ctx: ChangeContext, *, tolerance: float, 
         why = ("tracking recorded no fold pair" if is_fold(ch) else
                f"no fold indicator for a {ch.get('mechanism')} change")
         return propose_bisection(min(v0, v1), max(v0, v1), n, reason=why)
-    samples = fold_samples(tracked_frames, side)
+    samples = fold_samples(tracked_frames, side, gtol=gtol)
     return propose_fold(side.present, side.absent, samples, tol=tolerance, n=n,
                         evaluations=ctx.evaluations, initial_width=abs(ctx.base[1] - ctx.base[0]),
                         previous_delta=_previous_delta(ctx), surprised=_surprised(ctx, side))
 
 
 def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 1,
-               budget: int | None = None) -> list:
+               budget: int | None = None, gtol: float = DEFAULT_GTOL) -> list:
     """The probes of one round of refinement.
 
     Parameters
@@ -187,6 +188,9 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
     round_number : int
     budget : int, optional
         At most this many probes.
+    gtol : float
+        Gradient tolerance of the critical-point search (position errors of
+        the fold samples).
 
     Returns
     -------
@@ -204,7 +208,7 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
     for ctx, n in zip(open_, slots):
         if n == 0:
             continue
-        prop = propose_for_change(frames, ctx, tolerance=tolerance, n=n)
+        prop = propose_for_change(frames, ctx, tolerance=tolerance, n=n, gtol=gtol)
         logger.info("bracket %s: %s %s (%s)", ctx.change["bracket"], prop.method,
                     list(prop.values), prop.reason)
         expected = prop.expected or (None,) * len(prop.values)
@@ -226,7 +230,8 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
 
 
 def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | None = None,
-                  jobs: int = 1, track=None, progress=None) -> RefineResult:
+                  jobs: int = 1, track=None, gtol: float = DEFAULT_GTOL,
+                  progress=None) -> RefineResult:
     """Narrow every change bracket of a scan below `tolerance`.
 
     Parameters
@@ -249,6 +254,8 @@ def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | 
         Values per round.
     track : callable, optional
         ``track(frames) -> dict``; default :func:`trackscan.tracking.track_scan`.
+    gtol : float
+        Gradient tolerance the frames were analysed with.
     progress : callable, optional
         Receives ProgressEvent objects (task ``"refine"``).
 
@@ -290,7 +297,7 @@ def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | 
             break
         round_number += 1
         probes = plan_round(result.tracked, tolerance=tolerance, jobs=jobs,
-                            round_number=round_number, budget=budget)
+                            round_number=round_number, budget=budget, gtol=gtol)
         if not probes:
             result.message = "no new value can be proposed (brackets at the value resolution)"
             break

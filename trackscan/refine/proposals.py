@@ -103,6 +103,8 @@ class FoldFit:
         ``s*`` from ``lambda^2`` with the same order (a cross-check).
     noise : float
         Part of the error propagated from the samples' ``d2_error``.
+    truncation : float or None
+        Part of the error from the interpolation order alone.
     """
 
     estimate: float
@@ -111,10 +113,12 @@ class FoldFit:
     samples: int
     estimate_lambda2: float | None = None
     noise: float = 0.0
+    truncation: float | None = None
 
     def to_dict(self) -> dict:
         d = {"indicator": "d2", "estimate": self.estimate, "error": self.error,
-             "noise": self.noise, "order": self.order, "samples": self.samples}
+             "truncation": self.truncation, "noise": self.noise, "order": self.order,
+             "samples": self.samples}
         if self.estimate_lambda2 is not None:
             d["estimate_lambda2"] = self.estimate_lambda2
         return d
@@ -265,17 +269,17 @@ def fit_fold(samples, *, absent: float, max_order: int = 2) -> FoldFit | None:
             except ZeroDivisionError:
                 return None
     noise = math.sqrt(noise2)
-    err = None
+    err = trunc = None
     if k >= 3:
-        lower = _neville_at_zero(ys[:-1], xs[:-1])
-        err = math.hypot(est - lower, noise)
+        trunc = abs(est - _neville_at_zero(ys[:-1], xs[:-1]))
+        err = math.hypot(trunc, noise)
     est_l = None
     lam = [s for s in pts if s.lambda2 is not None and s.lambda2 > 0]
     if len(lam) == len(pts) and all(b.lambda2 > a.lambda2 for a, b in zip(lam, lam[1:])):
         est_l = _neville_at_zero([s.lambda2 for s in lam], [s.value for s in lam])
     if not math.isfinite(est):
         return None
-    return FoldFit(est, err, k - 1, k, est_l, noise)
+    return FoldFit(est, err, k - 1, k, est_l, noise, trunc)
 
 
 def propose_fold(present: float, absent: float, samples, *, tol: float, n: int = 1,
@@ -314,7 +318,7 @@ def propose_fold(present: float, absent: float, samples, *, tol: float, n: int =
     Notes
     -----
     With ``t`` the distance from `present` towards `absent`, the fit gives
-    ``t_est`` and an error ``e``; ``delta = max(0.45 tol, 2 e)`` (METHODS.md
+    ``t_est`` and a truncation error ``e``; ``delta = max(0.45 tol, 2 e)`` (METHODS.md
     section 7, scheme (B), with the error estimate of :func:`fit_fold`
     standing in for the change of successive estimates).  With one value per
     round the probe goes to ``t_est + delta`` (expected: absent) when that
@@ -330,6 +334,12 @@ def propose_fold(present: float, absent: float, samples, *, tol: float, n: int =
     bounded by a small multiple of bisection, while on a clean fold the
     uncertainty shrinks superlinearly (the secant-like order of the inverse
     interpolation).
+
+    The step uses the truncation part of the fit's error only: the position
+    noise part (:attr:`FoldFit.noise`) comes from a deliberately pessimistic
+    model and is reported, not steered by; the existence bit of every probe
+    keeps the bracket exact whatever the model's error, and a contradicted
+    expectation triggers bisection.
     """
     width = abs(absent - present)
     lo, hi = min(present, absent), max(present, absent)
@@ -349,7 +359,7 @@ def propose_fold(present: float, absent: float, samples, *, tol: float, n: int =
     if not 0.0 < t_est < width:
         return Proposal(bisection_points(lo, hi, n), BISECTION,
                         "the extrapolated fold lies outside the bracket", fit)
-    err = fit.error if fit.error is not None else 0.25 * t_est
+    err = fit.truncation if fit.truncation is not None else 0.25 * t_est
     delta = max(STRADDLE * tol, 2.0 * err)
     if 2.0 * delta >= 0.5 * width:
         return Proposal(bisection_points(lo, hi, n), BISECTION,

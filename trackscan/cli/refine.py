@@ -1,0 +1,114 @@
+"""Narrow each structural change of a scan with as few new densities as possible.
+
+With a generator in the manifest: proposes coordinate values inside each
+change bracket (fold extrapolation from the coalescing pair's squared
+separation where catastrophe theory applies, bisection otherwise), makes and
+analyses the frames there, tracks again, and repeats until every bracket is
+at most --tolerance (coordinate units) or --max-evaluations new frames are
+spent; then writes DIR/scan.json and the report (default DIR:
+reports/<scan name>/).  Every new frame is saved and entered in the frames
+folder's record.json before the next step: rerun the same command after an
+interruption and it continues without repeating a calculation.
+
+--jobs P computes P values per round (several brackets at once, or a
+(P+1)-section of one); --dask ADDRESS sends the generator calls and the
+frame analyses to a dask.distributed scheduler instead (extra 'dask').
+
+--suggest (no generator needed): prints the next values and writes the
+geometry of each (from generator.geometry) to DIR/suggested/*.xyz; compute
+the densities in your own program, add the cubes to the scan's frames, and
+run it again.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+from pathlib import Path
+
+from trackscan.io.manifest import load_manifest
+from trackscan.progress import TextProgress
+
+
+def add_arguments(parser) -> None:
+    parser.add_argument("manifest", help="scan manifest (YAML)")
+    parser.add_argument("--tolerance", "-t", metavar="T", type=float, required=True,
+                        help="target bracket width, in the coordinate's unit")
+    parser.add_argument("--max-evaluations", metavar="N", type=int, default=None,
+                        help="at most N new frames for the scan (counting earlier runs)")
+    parser.add_argument("--jobs", "-j", metavar="P", type=int, default=1,
+                        help="values per round and local worker processes (default 1)")
+    parser.add_argument("--out", metavar="DIR", default=None,
+                        help="output folder (default: reports/<scan name>/)")
+    parser.add_argument("--suggest", action="store_true",
+                        help="only print the next values and write their geometries")
+    parser.add_argument("--dask", metavar="ADDRESS", default=None,
+                        help="dask.distributed scheduler for generator calls and analyses")
+
+
+def _fmt(x) -> str:
+    return f"{x:.6g}"
+
+
+def change_lines(scan: dict) -> list:
+    """Printed table of the refined changes."""
+    unit = scan["scan"]["coordinate"].get("unit", "")
+    rows = [("#", "bracket", "estimate", "method", "new frames", "bisection")]
+    for n, ch in enumerate(scan["changes"], start=1):
+        a, b = ch["bracket"]
+        unc = ch.get("uncertainty") or {}
+        err = unc.get("model_error")
+        est = _fmt(ch["estimate"]) + (f" ± {err:.2g}" if err is not None else "")
+        rows.append((str(n), f"{_fmt(a)} → {_fmt(b)} {unit}".strip(), est, ch["estimate_method"],
+                     str(ch.get("evaluations", 0)),
+                     str((ch.get("refine") or {}).get("bisection_evaluations", ""))))
+    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
+    return ["  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip() for r in rows]
+
+
+def _backend(args):
+    from trackscan.refine.backends import make_backend
+
+    return make_backend(jobs=args.jobs, dask=args.dask)
+
+
+def run(args) -> int:
+    from trackscan.analysis import write_scan
+    from trackscan.refine.scan import refine_manifest, suggest_values
+
+    manifest = load_manifest(args.manifest)
+    out = Path(args.out) if args.out else Path("reports") / manifest.name
+    backend = _backend(args)
+    try:
+        if args.suggest:
+            sugg = suggest_values(manifest, tolerance=args.tolerance, jobs=args.jobs,
+                                  out_dir=out, backend=backend)
+            if not sugg:
+                print(f"every bracket is at most {args.tolerance:g}: nothing to compute")
+                return 0
+            unit = manifest.coordinate.unit
+            print(f"compute the density at {len(sugg)} value(s) of {manifest.coordinate.label}:")
+            for s in sugg:
+                where = s["xyz"] or "(no generator.geometry: no geometry written)"
+                print(f"  {s['value']:.6f} {unit}  {s['method']}  {where}")
+            print("then add the cubes to the frames of the scan and run this again")
+            return 0
+        progress = TextProgress()
+        scan, result = refine_manifest(manifest, tolerance=args.tolerance,
+                                       max_evaluations=args.max_evaluations, jobs=args.jobs,
+                                       out_dir=out, backend=backend, progress=progress)
+        progress.close()
+    finally:
+        backend.close()
+    path = out / "scan.json"
+    write_scan(path, scan)
+    from trackscan.report import write_report
+
+    files = write_report(path, out, source_dir=manifest.base_dir)
+    print(f"refine: {result.message}; {result.evaluations} new frame(s) this run, "
+          f"{result.total_evaluations} in all")
+    for line in change_lines(scan):
+        print(line)
+    print(f"wrote {os.fspath(path)} and {os.fspath(files.html)}")
+    sys.stdout.flush()
+    return 0

@@ -1,0 +1,296 @@
+"""Refine a scan manifest: new frames from its generator, recorded as they come.
+
+``refine_manifest(manifest, tolerance=...)`` analyses the scan's frames,
+runs the refine loop (:func:`trackscan.refine.loop.refine_frames`) with the
+manifest's generator, and returns the scan.json dict with every change's
+estimate, method, evaluations and uncertainty.  Each new cube is written
+to the frames folder and entered in its ``record.json``
+(:func:`record_generated_frame`, atomic) before the loop takes its next
+step, so a refine that stops half way (an error, a killed job) resumes where
+it stopped when rerun: :func:`trackscan.io.manifest.load_manifest` merges the
+recorded frames, their analyses come from the cache, and the loop makes the
+proposal it would have made next.
+
+``suggest_values(manifest, tolerance=...)`` is the same first step without a
+generator: it returns the next values and writes the geometry of each as an
+XYZ file, for the researcher to compute elsewhere.
+"""
+
+from __future__ import annotations
+
+import json
+import logging
+import os
+from pathlib import Path
+
+from trackscan.errors import InputError
+from trackscan.io.atomic import write_text_atomic
+from trackscan.io.manifest import RECORD_NAME, generated_frame_name, read_frame_record
+from trackscan.refine.backends import LocalBackend
+from trackscan.refine.estimates import annotate_changes
+from trackscan.refine.loop import REFINE_KEY, plan_round, refine_frames
+from trackscan.refine.proposals import DECIMALS
+
+__all__ = ["record_generated_frame", "refine_manifest", "suggest_values", "load_frames",
+           "SUGGESTIONS_NAME"]
+
+logger = logging.getLogger(__name__)
+
+#: File (in the suggestions folder) listing the values suggested so far.
+SUGGESTIONS_NAME = "suggested.json"
+
+
+def record_generated_frame(manifest, entry: dict) -> Path:
+    """Add (or replace) one frame in the manifest's record of generated frames.
+
+    Parameters
+    ----------
+    manifest : ScanManifest
+    entry : dict
+        ``file`` (name relative to the frames folder), ``value``, and
+        optionally ``energy`` and ``refine``.
+
+    Returns
+    -------
+    Path
+        The record file, ``<frames_directory>/record.json``, rewritten
+        atomically (sorted by value; the user's YAML is never touched).
+    """
+    folder = Path(manifest.frames_directory)
+    frames = [f for f in read_frame_record(folder) if f["file"] != entry["file"]]
+    clean = {k: v for k, v in entry.items() if v is not None}
+    frames.append(clean)
+    frames.sort(key=lambda f: (float(f["value"]), f["file"]))
+    path = folder / RECORD_NAME
+    write_text_atomic(path, json.dumps({"frames": frames}, indent=1, sort_keys=True) + "\n")
+    return path
+
+
+def _key(value) -> float:
+    return round(float(value), DECIMALS)
+
+
+def _recorded_meta(manifest) -> dict:
+    """Refine records of generated frames, by resolved cube path."""
+    folder = Path(manifest.frames_directory)
+    out = {}
+    for rec in read_frame_record(folder):
+        if isinstance(rec.get(REFINE_KEY), dict):
+            out[os.path.normcase(os.path.abspath(folder / rec["file"]))] = rec[REFINE_KEY]
+    return out
+
+
+def _suggested_meta(folder) -> dict:
+    path = Path(folder) / SUGGESTIONS_NAME if folder is not None else None
+    if path is None or not path.is_file():
+        return {}
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+        return {_key(s["value"]): s[REFINE_KEY] for s in data["suggestions"]}
+    except (ValueError, KeyError, TypeError):
+        logger.warning("ignoring a broken list of suggestions %s", path)
+        return {}
+
+
+def _describe_frames(manifest, entries, frames, *, suggested=None):
+    base = manifest.base_dir
+    meta = _recorded_meta(manifest)
+    suggested = suggested or {}
+    for entry, frame in zip(entries, frames):
+        frame["value"] = float(entry.value)
+        frame["source"] = Path(os.path.relpath(entry.file, base)).as_posix()
+        if entry.energy is not None:
+            frame["energy_hartree"] = float(entry.energy)
+        m = meta.get(os.path.normcase(os.path.abspath(entry.file))) or suggested.get(
+            _key(entry.value))
+        if m is not None:
+            frame[REFINE_KEY] = dict(m)
+    return frames
+
+
+def load_frames(manifest, *, backend=None, cache_dir=None, suggested_dir=None,
+                progress=None) -> list:
+    """Analysed frame dicts of every frame of the manifest (cached).
+
+    Frames listed by value only are generated first
+    (:func:`trackscan.analysis.scan.ensure_frames`); recorded refine frames
+    get their ``refine`` bookkeeping back.
+    """
+    from trackscan.analysis.scan import ensure_frames
+
+    backend = backend or LocalBackend()
+    ensure_frames(manifest, progress=progress)
+    entries = list(manifest.frames)
+    frames = backend.analyse([e.file for e in entries], manifest.analysis,
+                             periodic=manifest.periodic, cache_dir=cache_dir, progress=progress)
+    return _describe_frames(manifest, entries, frames, suggested=_suggested_meta(suggested_dir))
+
+
+def _track(manifest):
+    from trackscan.tracking import track_scan
+
+    def track(frames):
+        return track_scan(frames, unit=manifest.coordinate.unit)
+    return track
+
+
+def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None = None,
+                    jobs: int = 1, out_dir=None, backend=None, generator=None,
+                    progress=None):
+    """Refine every change bracket of a scan with its generator.
+
+    Parameters
+    ----------
+    manifest : ScanManifest
+    tolerance : float
+        Target bracket width, coordinate units.
+    max_evaluations : int, optional
+        Budget of refinement frames (counting those of earlier runs).
+    jobs : int
+        Values per round (and local worker processes).
+    out_dir : path-like, optional
+        Report folder; its ``.cache`` holds the frame analyses.
+    backend : LocalBackend or DaskBackend, optional
+        Default: ``LocalBackend(jobs)``.
+    generator : Generator, optional
+        Default: built from the manifest's ``generator`` section.
+    progress : callable, optional
+
+    Returns
+    -------
+    scan : dict
+        scan.json content, changes annotated
+        (:func:`trackscan.refine.estimates.annotate_changes`) and
+        ``scan.refine`` summarising the run.
+    result : RefineResult
+
+    Raises
+    ------
+    InputError
+        No generator (use :func:`suggest_values`), bad tolerance or budget.
+    GeneratorError
+        A generator call failed; frames finished before it stay recorded.
+    """
+    from trackscan.analysis import analyze_scan
+    from trackscan.generators import make_generator
+    from trackscan.io.manifest import load_manifest
+
+    if generator is None:
+        if manifest.generator is None or not hasattr(manifest.generator, "source"):
+            raise InputError("refine needs a generator section to compute new frames; "
+                             "use --suggest to get the values and geometries instead",
+                             manifest.path)
+        generator = make_generator(manifest.generator, coordinate=manifest.coordinate)
+        config = manifest.generator
+    else:
+        config = None
+    backend = backend or LocalBackend(jobs)
+    cache_dir = None if out_dir is None else Path(out_dir) / ".cache"
+    folder = Path(manifest.frames_directory)
+    frames = load_frames(manifest, backend=backend, cache_dir=cache_dir, progress=progress)
+
+    def evaluate(probes):
+        tasks = [(p.value, os.fspath(folder / generated_frame_name(p.value)), os.fspath(folder))
+                 for p in probes]
+        folder.mkdir(parents=True, exist_ok=True)
+        made = [None] * len(probes)
+        for i, out in backend.generate(tasks, generator=generator, config=config,
+                                       coordinate=manifest.coordinate):
+            made[i] = out
+            record_generated_frame(manifest, {"file": Path(tasks[i][1]).name,
+                                              "value": probes[i].value, "energy": out.energy,
+                                              REFINE_KEY: probes[i].meta})
+            logger.info("new frame at %g: %s", probes[i].value, tasks[i][1])
+        new = backend.analyse([t[1] for t in tasks], manifest.analysis,
+                              periodic=manifest.periodic, cache_dir=cache_dir)
+        for p, t, out, f in zip(probes, tasks, made, new):
+            f["value"] = float(p.value)
+            f["source"] = Path(os.path.relpath(t[1], manifest.base_dir)).as_posix()
+            if out.energy is not None:
+                f["energy_hartree"] = float(out.energy)
+            f[REFINE_KEY] = dict(p.meta)
+        return new
+
+    result = refine_frames(frames, evaluate=evaluate, tolerance=tolerance,
+                           max_evaluations=max_evaluations, jobs=jobs if backend.jobs == 1
+                           else max(jobs, backend.jobs), track=_track(manifest),
+                           gtol=manifest.analysis.gtol, progress=progress)
+    final = load_manifest(manifest.path)
+    scan = analyze_scan(final, out_dir=out_dir, jobs=1 if backend.jobs > 1 else jobs,
+                        progress=progress)
+    meta = _recorded_meta(final)
+    for f in scan["frames"]:
+        m = meta.get(os.path.normcase(os.path.abspath(final.base_dir / f["source"])))
+        if m is not None:
+            f[REFINE_KEY] = dict(m)
+    scan["changes"] = annotate_changes(scan["frames"], scan["changes"], tolerance=tolerance,
+                                       gtol=final.analysis.gtol)
+    scan["scan"]["refine"] = {"tolerance": float(tolerance), "max_evaluations": max_evaluations,
+                              "evaluations": result.total_evaluations,
+                              "converged": result.converged, "message": result.message}
+    return scan, result
+
+
+def suggest_values(manifest, *, tolerance: float, jobs: int = 1, out_dir=None,
+                   backend=None, progress=None) -> list:
+    """The next values to compute, with their geometries written as XYZ files.
+
+    Parameters
+    ----------
+    manifest : ScanManifest
+        Needs no density source; a ``generator.geometry`` section gives the
+        geometries.
+    tolerance : float
+    jobs : int
+        How many values to suggest.
+    out_dir : path-like, optional
+        Report folder; XYZ files and ``suggested.json`` go to
+        ``<out_dir>/suggested/``.
+
+    Returns
+    -------
+    list of dict
+        ``value``, ``xyz`` (path or None without a geometry drive),
+        ``method`` and ``bracket`` per suggestion; empty when every bracket
+        is at most `tolerance`.
+    """
+    from trackscan.generators import make_drive
+    from trackscan.io.xyz import write_xyz
+
+    out_dir = Path(out_dir) if out_dir is not None else Path("reports") / manifest.name
+    sugg_dir = out_dir / "suggested"
+    frames = load_frames(manifest, backend=backend, cache_dir=out_dir / ".cache",
+                         suggested_dir=sugg_dir, progress=progress)
+    tracked = _track(manifest)(frames)
+    if tolerance <= 0:
+        raise InputError(f"--tolerance must be positive, got {tolerance!r}")
+    rounds = [int(f[REFINE_KEY].get("round", 0)) for f in frames if REFINE_KEY in f]
+    probes = plan_round(tracked, tolerance=tolerance, jobs=jobs,
+                        round_number=max(rounds, default=0) + 1, gtol=manifest.analysis.gtol)
+    drive = None
+    gen = manifest.generator
+    if gen is not None and getattr(gen, "geometry", None) is not None:
+        drive = make_drive(gen.geometry, coordinate=manifest.coordinate, manifest=manifest.path)
+    out = []
+    for p in probes:
+        xyz = None
+        if drive is not None:
+            geom = drive.geometry(p.value)
+            xyz = sugg_dir / generated_frame_name(p.value).replace(".cube", ".xyz")
+            write_xyz(xyz, geom)
+        out.append({"value": p.value, "xyz": None if xyz is None else os.fspath(xyz),
+                    "method": p.meta["method"], "bracket": p.meta["bracket"]})
+    if probes:
+        path = sugg_dir / SUGGESTIONS_NAME
+        known = {}
+        if path.is_file():
+            try:
+                known = {_key(s["value"]): s for s in
+                         json.loads(path.read_text(encoding="utf-8"))["suggestions"]}
+            except (ValueError, KeyError, TypeError):
+                known = {}
+        for p in probes:
+            known[_key(p.value)] = {"value": p.value, REFINE_KEY: p.meta}
+        write_text_atomic(path, json.dumps({"suggestions": [known[k] for k in sorted(known)]},
+                                           indent=1, sort_keys=True) + "\n")
+    return out
