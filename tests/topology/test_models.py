@@ -97,6 +97,23 @@ def test_tetrahedral_cluster_has_a_cage_bounded_by_four_rings():
     assert topo.poincare_hopf["holds"]
 
 
+def test_benzene_ring_atoms_in_cyclic_order():
+    # benzene: 12 - 12 + 1 = 1 (METHODS.md section 4); the ring CP lists the
+    # six C atoms in the order they sit around the ring, whatever their numbers
+    rc, rh = 2.640, 4.688                       # 1.397 and 2.481 A from the centre
+    order = [0, 3, 1, 4, 2, 5]                   # atom k sits at angle 60 * order[k] deg
+    pos = [[rc * np.cos(np.pi * k / 3), rc * np.sin(np.pi * k / 3), 0.0] for k in order]
+    pos += [[rh * np.cos(np.pi * k / 3), rh * np.sin(np.pi * k / 3), 0.0] for k in range(6)]
+    pos = np.array(pos) + [0.01, 0.02, 0.03]
+    nums = [6] * 6 + [1] * 6
+    topo = analyze_frame(promolecule_grid(nums, pos, spacing=0.2, margin=2.5),
+                         field=Promolecule(nums, pos))
+    assert topo.counts["bond"] == 12 and topo.counts["ring"] == 1
+    (ring,) = topo.by_kind("ring")
+    assert ring.atoms == [1, 3, 5, 2, 4, 6]     # angles 0, 60, 120, 180, 240, 300
+    assert np.allclose(ring.position, pos[:6].mean(axis=0), atol=1e-6)
+
+
 def test_non_nuclear_attractor_gets_its_own_node():
     # two atoms and a density maximum between them that belongs to no nucleus
     centres = [[0.0, 0.0, -2.0], [0.0, 0.0, 0.1], [0.0, 0.0, 2.0]]

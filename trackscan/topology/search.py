@@ -116,8 +116,13 @@ def exclusion_radii(field, grid, settings) -> np.ndarray:
 
     ``settings.nuclear_radius``, or the field's core-smoothing radius
     (:attr:`trackscan.fields.GridField.core_radii`) where that is larger.
+    Atoms beyond Ar, which the free-atom model does not cover, get the
+    default core radius: their unsubtracted cores ring in the spline.
     """
+    from trackscan.fields.grid_field import CORE_RADIUS
+
     r = np.full(grid.n_atoms, float(settings.nuclear_radius))
+    r = np.where(grid.numbers > 18, np.maximum(r, CORE_RADIUS), r)
     core = getattr(field, "core_radii", None)
     if core is not None and len(core) == grid.n_atoms:
         r = np.maximum(r, core)
