@@ -106,8 +106,9 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
                         "Design”, safe for the common colour-vision deficiencies; every CP "
                         "kind also has its own marker shape. Positions in Å, densities and "
                         "their derivatives in atomic units.")]
-    for name, make in (("CP counts", plots.counts_plot), ("bond CP properties", plots.bond_cp_plot),
-                       ("energy", plots.energy_plot), ("fold distances", plots.fold_distance_plot)):
+    makers = (("CP counts", plots.counts_plot), ("bond CP properties", plots.bond_cp_plot),
+              ("energy", plots.energy_plot), ("fold distances", plots.fold_distance_plot))
+    for name, make in makers:
         report(progress, TASK, step, total, f"plot: {name}")
         step += 1
         fig = make(scan)
@@ -119,6 +120,8 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
         report(progress, TASK, step, total, f"change {k}: molecular graphs and density map")
         step += 1
         blocks = [Paragraph(_change_line(scan, change, k))]
+        if change.get("note"):
+            blocks.append(Paragraph(f"Note from the analysis: {change['note']}", note=True))
         pair = tables.pair_table(scan, change, k)
         if pair is not None:
             blocks.append(pair)
