@@ -137,3 +137,22 @@ def test_density_map_falls_back_to_the_model_without_cubes():
     raw["scan"]["density_source"] = "cube files from elsewhere"
     fig, note = density_map_figure(load_scan(raw), load_scan(raw).changes[0], 1)
     assert fig is None and "frames/f01.cube" in note
+
+
+def test_fold_distance_plot_for_folds_and_unresolved_fold_candidates_only():
+    from trackscan.report.plots import fold_distance_plot, fold_series
+    raw = _fixture()
+    scan = load_scan(raw)
+    label, x, d = fold_series(scan, scan.changes[0])
+    # the bond CP b3 and ring CP r1 exist in frames 0 and 1 only; distance from scan.json
+    frames = {f["index"]: f for f in raw["frames"]}
+    want = []
+    for i in (0, 1):
+        cps = {cp["id"]: cp["position_bohr"] for cp in frames[i]["critical_points"]}
+        want.append(np.linalg.norm(np.subtract(cps["b3"], cps["r1"])) / 1.8897261246257702)
+    assert list(x) == [1.5, 1.7] and d == pytest.approx(want, rel=1e-9)
+    assert label == "bond CP C1–C2 · ring CP"
+    raw["changes"][0].update(mechanism="unresolved", mechanism_candidate="fold")
+    assert fold_distance_plot(load_scan(raw)) is not None
+    raw["changes"][0].update(mechanism="conflict", mechanism_candidate=None)
+    assert fold_distance_plot(load_scan(raw)) is None

@@ -37,7 +37,11 @@ def _mark_changes(ax, scan: ScanData, *, numbers: bool = True) -> None:
     for k, change in enumerate(scan.changes, 1):
         bracket = change.get("bracket")
         if bracket:
-            ax.axvspan(min(bracket), max(bracket), **BRACKET_STYLE)
+            style = dict(BRACKET_STYLE)
+            if change.get("mechanism") == "unresolved":
+                style = dict(facecolor=style.pop("color"), hatch="///", edgecolor="#666666",
+                             **style)
+            ax.axvspan(min(bracket), max(bracket), **style)
         est = change.get("estimate")
         x = est if isinstance(est, (int, float)) else (sum(bracket) / 2 if bracket else None)
         if isinstance(est, (int, float)):
@@ -51,9 +55,13 @@ def _mark_changes(ax, scan: ScanData, *, numbers: bool = True) -> None:
 def _change_handles(scan: ScanData) -> list:
     if not scan.changes:
         return []
-    return [Patch(facecolor=BRACKET_STYLE["color"], alpha=0.5,
-                  label="change bracket (number above)"),
-            Line2D([], [], **ESTIMATE_STYLE, label="change estimate")]
+    handles = [Patch(facecolor=BRACKET_STYLE["color"], alpha=0.5,
+                     label="change bracket (number above)")]
+    if any(c.get("mechanism") == "unresolved" for c in scan.changes):
+        handles.append(Patch(facecolor=BRACKET_STYLE["color"], alpha=0.5, hatch="///",
+                             edgecolor="#666666", label="unresolved change"))
+    handles.append(Line2D([], [], **ESTIMATE_STYLE, label="change estimate"))
+    return handles
 
 
 def counts_plot(scan: ScanData):
@@ -258,7 +266,8 @@ def fold_distance_plot(scan: ScanData):
     """Distance (and its square) between coalescing CPs near each fold, or None."""
     series = []
     for k, change in enumerate(scan.changes, 1):
-        if change.get("mechanism") not in ("fold", "mixed"):
+        if change.get("mechanism") not in ("fold", "mixed") and \
+                change.get("mechanism_candidate") not in ("fold", "mixed"):
             continue
         s = fold_series(scan, change)
         if s is not None and len(s[1]):
