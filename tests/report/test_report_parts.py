@@ -14,6 +14,7 @@ from trackscan.report.change_geometry import best_plane, coalescing_pair, involv
 from trackscan.report.density_map import contour_levels, density_map_figure, density_on_plane
 from trackscan.report.tables import frame_table
 from trackscan.report.wording import change_words, coord_decimals, resolution_words
+from trackscan.units import ANGSTROM_IN_BOHR
 
 
 def _fixture():
@@ -149,7 +150,7 @@ def test_fold_distance_plot_for_folds_and_unresolved_fold_candidates_only():
     want = []
     for i in (0, 1):
         cps = {cp["id"]: cp["position_bohr"] for cp in frames[i]["critical_points"]}
-        want.append(np.linalg.norm(np.subtract(cps["b3"], cps["r1"])) / 1.8897261246257702)
+        want.append(np.linalg.norm(np.subtract(cps["b3"], cps["r1"])) / ANGSTROM_IN_BOHR)
     assert list(x) == [1.5, 1.7] and d == pytest.approx(want, rel=1e-9)
     assert label == "bond CP C1–C2 · ring CP"
     raw["changes"][0].update(mechanism="unresolved", mechanism_candidate="fold")
