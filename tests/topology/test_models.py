@@ -15,6 +15,16 @@ from trackscan.settings import AnalysisSettings
 from trackscan.topology import (analyze_frame, classify, same_structure, same_structure_type)
 
 
+@pytest.fixture
+def warnings_log(caplog, monkeypatch):
+    """caplog that sees trackscan warnings even after the CLI configured logging."""
+    root = logging.getLogger("trackscan")
+    monkeypatch.setattr(root, "propagate", True)
+    monkeypatch.setattr(root, "handlers", [])
+    caplog.set_level(logging.WARNING, logger="trackscan")
+    return caplog
+
+
 def _sampled(field, origin, axes, shape, numbers, positions, periodic=False):
     idx = np.stack(np.meshgrid(*[np.arange(n) for n in shape], indexing="ij"), -1).reshape(-1, 3)
     values = field.evaluate(np.asarray(origin) + idx @ np.asarray(axes), 0)[0].reshape(shape)
@@ -128,24 +138,23 @@ def test_non_nuclear_attractor_gets_its_own_node():
     assert topo.poincare_hopf["holds"]     # 2 + 1 - 2 = 1
 
 
-def test_open_bond_path_is_reported_not_dropped(caplog):
+def test_open_bond_path_is_reported_not_dropped(warnings_log):
     # the grid cuts off the second maximum: the bond CP is inside, but one of
     # its paths leaves the box without meeting an attractor
     model = SphericalSum([[0.0, 0.0, -1.5], [0.0, 0.0, 1.5]], [1.0, 1.0], [0.8, 0.8])
     grid = _sampled(model, [-3.0, -3.0, -4.0], np.eye(3) * 0.15, (41, 41, 35), [1, 1],
                     np.array([[0.0, 0.0, -1.5], [0.0, 0.0, 9.0]]))
-    with caplog.at_level(logging.WARNING, logger="trackscan"):
-        topo = analyze_frame(grid, field=model)
+    topo = analyze_frame(grid, field=model)
     (b,) = topo.by_kind("bond")
     (bp,) = topo.bond_paths
     assert not bp.complete and bp.atoms == [1, None] and b.atoms == [1, None]
     frame = topo.to_dict()
     assert frame["bond_paths"][0]["complete"] is False
     assert any("do not reach an attractor" in w for w in frame["warnings"])
-    assert any("do not reach an attractor" in r.message for r in caplog.records)
+    assert any("do not reach an attractor" in r.message for r in warnings_log.records)
 
 
-def test_failed_poincare_hopf_flags_the_frame_incomplete(caplog):
+def test_failed_poincare_hopf_flags_the_frame_incomplete(warnings_log):
     # a density floor above the ring CP and the C-H bond CPs of a
     # promolecular cyclopropane drops them: n - b + r - c = 9 - 3 = 6, which
     # no denser seeding can repair
@@ -159,13 +168,12 @@ def test_failed_poincare_hopf_flags_the_frame_incomplete(caplog):
     nums = [6, 6, 6, 1, 1, 1, 1, 1, 1]
     grid = promolecule_grid(nums, pos, spacing=0.25, margin=2.5)
     settings = AnalysisSettings(density_floor=0.195, seed_retries=1)
-    with caplog.at_level(logging.WARNING, logger="trackscan"):
-        topo = analyze_frame(grid, settings, field=Promolecule(nums, pos))
+    topo = analyze_frame(grid, settings, field=Promolecule(nums, pos))
     assert topo.counts["ring"] == 0
     assert not topo.complete and topo.seeding_level == 1
     assert topo.poincare_hopf["holds"] is False
     assert topo.to_dict()["complete"] is False
-    assert any("Poincare-Hopf fails" in r.message for r in caplog.records)
+    assert any("Poincare-Hopf fails" in r.message for r in warnings_log.records)
 
 
 def test_degenerate_points_are_never_forced_into_a_class():
