@@ -286,3 +286,11 @@ def test_progress_events_count_up_to_the_total(tmp_path):
     assert {e.task for e in events} == {"report"}
     done = [e.done for e in events]
     assert done == sorted(done) and done[-1] == events[-1].total == 4 + 1 + 1
+
+
+def test_report_folder_that_is_a_file_is_an_input_error(tmp_path):
+    (tmp_path / "scan.json").write_text(json.dumps(ring_opening_scan()), encoding="utf-8")
+    (tmp_path / "taken").write_text("", encoding="utf-8")
+    with pytest.raises(InputError):
+        write_report(tmp_path / "scan.json", tmp_path / "taken")
+    assert main(["report", str(tmp_path), "--out", str(tmp_path / "taken" / "sub")]) == 2

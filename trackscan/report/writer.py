@@ -8,6 +8,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from trackscan import __version__
+from trackscan.errors import InputError
 from trackscan.io.atomic import write_bytes_atomic, write_text_atomic
 from trackscan.report import tables
 from trackscan.progress import report
@@ -19,6 +20,10 @@ from trackscan.report.scan_data import load_scan
 __all__ = ["write_report", "ReportFiles"]
 
 logger = logging.getLogger(__name__)
+
+
+class ReportFolderError(InputError):
+    """The report folder cannot be created."""
 
 
 @dataclass(frozen=True)
@@ -61,11 +66,17 @@ def write_report(scan, out_dir, *, source_dir=None, date="today", progress=None)
     Raises
     ------
     trackscan.errors.InputError
-        `scan` is not a readable scan result.
+        `scan` is not a readable scan result, or `out_dir` cannot be made.
     """
     data = load_scan(scan, source_dir=source_dir)
     out = Path(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
+    if out.exists() and not out.is_dir():
+        raise ReportFolderError("the report folder is a file", out)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise ReportFolderError(f"cannot create the report folder ({exc.strerror})", out) \
+            from None
     if date == "today":
         date = datetime.datetime.now(datetime.timezone.utc).date().isoformat()
     logger.info("report of scan %r into %s", data.name, out)
