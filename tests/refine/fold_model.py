@@ -60,8 +60,12 @@ BIRTH_GUESS = (1.30, 0.45, 2.35)
 DEATH_GUESS = (1.05, 1.25, 2.86)
 
 
-def write_scan(folder: Path, values, *, spacing=0.1, margin=1.6, frames=None, generator=True):
-    """A scan manifest of the model with the built-in promolecule generator."""
+def write_scan(folder: Path, values, *, spacing=0.1, margin=1.6, frames=None, density=True):
+    """A scan manifest of the model.
+
+    With `frames` (list of (file, value)) the frames are cube files; with
+    ``density=False`` the generator section holds only the geometry drive.
+    """
     folder.mkdir(parents=True, exist_ok=True)
     base = positions(2.5) * BOHR_IN_ANGSTROM
     xyz = ["3", "three model hydrogen atoms"] + [
@@ -74,10 +78,10 @@ def write_scan(folder: Path, values, *, spacing=0.1, margin=1.6, frames=None, ge
                   "  directory: frames"]
     else:
         lines += ["frames:"] + [f"  - {{file: {f}, value: {v!r}}}" for f, v in frames]
-    if generator:
-        lines += ["generator:", "  geometry:", "    xyz: h3.xyz",
-                  "    drive: {distance: [1, 3], move: [3], unit: bohr}",
-                  f"  promolecule: {{spacing: {spacing}, margin: {margin}}}"]
+    lines += ["generator:", "  geometry:", "    xyz: h3.xyz",
+              "    drive: {distance: [1, 3], move: [3], unit: bohr}"]
+    if density:
+        lines += [f"  promolecule: {{spacing: {spacing}, margin: {margin}}}"]
     path = folder / "scan.yaml"
     path.write_text("\n".join(lines) + "\n")
     return path

@@ -176,7 +176,7 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
     from trackscan.io.manifest import load_manifest
 
     if generator is None:
-        if manifest.generator is None or not hasattr(manifest.generator, "source"):
+        if getattr(manifest.generator, "source", "none") == "none":
             raise InputError("refine needs a generator section to compute new frames; "
                              "use --suggest to get the values and geometries instead",
                              manifest.path)

@@ -1,0 +1,70 @@
+"""Resume: a refine stopped by a failing generator continues without repeats.
+
+The generator below wraps the manifest's promolecule generator, logs every
+value it is asked for and fails on its third call (as a crashed or killed
+quantum-chemistry job would).  The rerun must ask only for values not
+finished before, and the two runs together must make exactly the frames an
+uninterrupted refine makes.
+"""
+
+import importlib.util
+from pathlib import Path
+
+import pytest
+
+from trackscan.errors import GeneratorError
+from trackscan.generators import make_generator
+from trackscan.io.manifest import load_manifest, read_frame_record
+from trackscan.refine.scan import refine_manifest
+
+_spec = importlib.util.spec_from_file_location("fold_model", Path(__file__).with_name("fold_model.py"))
+fm = importlib.util.module_from_spec(_spec)
+_spec.loader.exec_module(fm)
+
+TOL = 1e-3
+VALUES = [2.6, 2.7, 2.8, 2.9, 3.0]
+
+
+class LoggingGenerator:
+    """Delegates to a real generator; records calls; may fail on call `fail_at`."""
+
+    def __init__(self, inner, fail_at=None):
+        self.inner, self.fail_at, self.calls = inner, fail_at, []
+
+    def generate(self, value, cube_path, workdir=None):
+        self.calls.append(value)
+        if self.fail_at is not None and len(self.calls) == self.fail_at:
+            raise GeneratorError(f"simulated crash of the calculation at {value}")
+        return self.inner.generate(value, cube_path, workdir=workdir)
+
+
+def _run(folder, fail_at=None):
+    manifest = load_manifest(folder / "scan.yaml")
+    gen = LoggingGenerator(make_generator(manifest.generator, coordinate=manifest.coordinate),
+                           fail_at)
+    try:
+        scan, result = refine_manifest(manifest, tolerance=TOL, out_dir=folder / "out",
+                                       generator=gen)
+    except GeneratorError:
+        return gen.calls, None
+    return gen.calls, scan
+
+
+def test_interrupted_refine_resumes_without_repeating(tmp_path):
+    ref_dir, cut_dir = tmp_path / "whole", tmp_path / "cut"
+    fm.write_scan(ref_dir, VALUES, spacing=0.2, margin=1.6)
+    fm.write_scan(cut_dir, VALUES, spacing=0.2, margin=1.6)
+    whole, scan = _run(ref_dir)
+    assert len(whole) >= 3 and scan is not None
+
+    first, none = _run(cut_dir, fail_at=3)
+    assert none is None and len(first) == 3
+    recorded = [r["value"] for r in read_frame_record(cut_dir / "frames")]
+    assert sorted(recorded) == sorted(first[:2])          # the two finished frames, recorded
+
+    second, scan2 = _run(cut_dir)
+    assert not set(second) & set(first[:2])               # nothing finished is computed again
+    assert second[0] == first[2]                          # the failed one is tried again
+    assert first[:2] + second == whole                    # same frames as without the crash
+    assert [c["bracket"] for c in scan2["changes"]] == [c["bracket"] for c in scan["changes"]]
+    assert scan2["scan"]["refine"]["evaluations"] == len(whole)
