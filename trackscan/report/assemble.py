@@ -84,11 +84,6 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
     if scan.scan.get("description"):
         blocks.append(Paragraph(str(scan.scan["description"]).strip()))
     blocks.append(_header_table(scan, date))
-    for key, caption in (("settings", "Analysis settings."),
-                         ("tracking", "Tracking settings (matching and change detection).")):
-        table = tables.settings_table(scan, key=key, caption=caption)
-        if table is not None:
-            blocks.append(table)
     doc.sections.append(Section("header", "Scan", tuple(blocks)))
 
     blocks = []
@@ -151,6 +146,14 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
         blocks.append(tables.resolution_table(scan))
     doc.sections.append(Section("cautions", "Cautions", tuple(blocks)))
 
+    blocks = []
+    for key, caption in (("settings", "Analysis settings."),
+                         ("tracking", "Tracking settings (matching and change detection).")):
+        table = tables.settings_table(scan, key=key, caption=caption)
+        if table is not None:
+            blocks.append(table)
+    if blocks:
+        doc.sections.append(Section("settings", "Settings", tuple(blocks), collapsible=True))
     doc.sections.append(Section("frames", "Per-frame results", (tables.frame_table(scan),),
                                 collapsible=True))
     doc.sections.append(Section("files", "Files", (BulletList((
