@@ -13,6 +13,7 @@ References
 ----------
 .. [1] M. Unser, "Splines: a perfect fit for signal and image processing",
    IEEE Signal Process. Mag. 16(6), 22-38 (1999). :DOI:`10.1109/79.799930`
+   [from memory]
 """
 
 from __future__ import annotations
