@@ -159,3 +159,16 @@ def test_abramov_kinetic_energy_density_at_the_hydrogen_bond(pyscf_case):
     assert e["H"] == pytest.approx(hb.laplacian / 4 - e["G"], abs=1e-12)
     assert 0.01 < hb.rho < 0.04 and hb.laplacian > 0      # a closed-shell contact
     assert not math.isnan(e["V"])
+
+
+def test_bond_path_lengths_match_paths_on_the_analytic_density(pyscf_case):
+    # the same path integrator run on PySCF's analytic density (seeded from
+    # the coarse cube) gives the reference lengths; the grid field must
+    # reproduce the bent C-C paths of cyclopropane to 1e-3 bohr
+    case = pyscf_case("cyclopropane")
+    exact = analyze_frame(read_cube(case.cube(0.2)), field=case.field)
+    grid = analyze_frame(read_cube(case.cube(0.1)))
+    ref = {tuple(bp.atoms): bp.length for bp in exact.bond_paths}
+    assert len(ref) == 9
+    for bp in grid.bond_paths:
+        assert bp.length == pytest.approx(ref[tuple(bp.atoms)], abs=1e-3)
