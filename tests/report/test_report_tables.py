@@ -77,7 +77,7 @@ def _check_summary(header, rows, scan):
 
 def _check_frames(header, rows, scan):
     col = {h: i for i, h in enumerate(header)}
-    frames = sorted(scan["frames"], key=lambda f: f["value"])
+    frames = sorted(scan["frames"], key=lambda f: f["index"])
     assert len(rows) == len(frames)
     short = dict(zip(("n", "nna", "b", "r", "c", "deg."), KINDS))
     for row, f in zip(rows, frames):
@@ -219,7 +219,7 @@ def test_csv_files_load_and_hold_scan_numbers(report):
         assert json.loads(row["resolution"]) == change["resolution"]
     with open(files.critical_points_csv, newline="", encoding="utf-8") as fh:
         cps = list(csv.DictReader(fh))
-    expected = [(f, cp) for f in sorted(scan["frames"], key=lambda f: f["value"])
+    expected = [(f, cp) for f in sorted(scan["frames"], key=lambda f: f["index"])
                 for cp in f["critical_points"]]
     assert len(cps) == len(expected)
     for row, (f, cp) in zip(cps, expected):
@@ -294,3 +294,21 @@ def test_report_folder_that_is_a_file_is_an_input_error(tmp_path):
     with pytest.raises(InputError):
         write_report(tmp_path / "scan.json", tmp_path / "taken")
     assert main(["report", str(tmp_path), "--out", str(tmp_path / "taken" / "sub")]) == 2
+
+
+def test_descending_scan_keeps_scan_order(tmp_path):
+    # the same ring opening read backwards: the ring forms as C1–C2 shortens
+    scan = ring_opening_scan()
+    n = len(scan["frames"])
+    for f in scan["frames"]:
+        f["index"] = n - 1 - f["index"]
+    ch = scan["changes"][0]
+    ch.update(between=[1, 2], bracket=[1.9, 1.7], mechanism="fold",
+              events=[{"kind": "bond_formed", "atoms": [1, 2]}, {"kind": "ring_formed"}])
+    files = write_report(scan, tmp_path, date=None)
+    page = read_html(files.html.read_text(encoding="utf-8"))
+    row = page.tables["table-summary"]["rows"][0]
+    assert numbers(row[1]) == ["1.900", "1.700"]
+    assert "bond path C1–C2 forms" in row[5] and "is born together with" in row[5]
+    values = [r[1] for r in page.tables["table-frames"]["rows"]]
+    assert values == ["2.100", "1.900", "1.700", "1.500"]

@@ -89,15 +89,23 @@ class ScanData:
 
     @property
     def frames(self) -> list:
-        """Frames sorted by coordinate value (then index)."""
+        """Frames in scan order: by ``index`` when every frame has one, else by value."""
         frames = list(self.data.get("frames") or [])
+        if frames and all(isinstance(f.get("index"), int) for f in frames):
+            return sorted(frames, key=lambda f: f["index"])
         return sorted(frames, key=lambda f: (_num(f.get("value")), _num(f.get("index"))))
 
     @property
     def changes(self) -> list:
-        """Changes in scan order (by the lower end of their bracket)."""
+        """Changes in scan order (by ``between``, else by the first end of the bracket)."""
         changes = list(self.data.get("changes") or [])
-        return sorted(changes, key=lambda c: min(_bracket(c) or (0.0,)))
+
+        def key(c):
+            between = c.get("between")
+            if isinstance(between, (list, tuple)) and between and isinstance(between[0], int):
+                return (0, between[0], 0.0)
+            return (1, 0, (_bracket(c) or (0.0,))[0])
+        return sorted(changes, key=key)
 
     @property
     def early_warnings(self) -> list:
