@@ -20,11 +20,10 @@ from trackscan.elements import symbol
 from trackscan.grid import DensityGrid
 from trackscan.progress import report as progress_report
 from trackscan.settings import AnalysisSettings
-from trackscan.topology.connect import end_key, connect_points
+from trackscan.topology.connect import connect_points, end_key
 from trackscan.topology.graph import build_graph
 from trackscan.topology.newton import merge_points
-from trackscan.topology.results import (COUNT_KEYS, ID_PREFIX, KINDS, BondPath, CriticalPoint,
-                                        fix, sig)
+from trackscan.topology.results import COUNT_KEYS, ID_PREFIX, KINDS, CriticalPoint, fix, sig
 from trackscan.topology.search import (Region, describe_points, exclusion_radii,
                                        find_critical_points, nuclear_points)
 

@@ -205,7 +205,7 @@ def describe_points(field, x, settings) -> list:
     rank, signature, kinds = classify(lam, settings.degenerate_tol)
     gn = np.linalg.norm(g, axis=1)
     out = []
-    for i in np.argsort(np.arange(len(x))):
+    for i in range(len(x)):
         if v[i] < settings.density_floor:
             continue
         lap = float(lam[i].sum())
