@@ -157,3 +157,14 @@ def test_fold_distance_plot_for_folds_and_unresolved_fold_candidates_only():
     assert fold_distance_plot(load_scan(raw)) is not None
     raw["changes"][0].update(mechanism="conflict", mechanism_candidate=None)
     assert fold_distance_plot(load_scan(raw)) is None
+
+
+def test_descending_scan_runs_left_to_right_in_plots():
+    from trackscan.report.plots import counts_plot
+    raw = _fixture()
+    for f in raw["frames"]:
+        f["index"] = 3 - f["index"]
+    scan = load_scan(raw)
+    assert scan.descending and [f["value"] for f in scan.frames] == [2.1, 1.9, 1.7, 1.5]
+    assert not load_scan(_fixture()).descending
+    assert counts_plot(scan) is not None

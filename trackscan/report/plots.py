@@ -52,6 +52,12 @@ def _mark_changes(ax, scan: ScanData, *, numbers: bool = True) -> None:
                         fontsize=8, color=ESTIMATE_STYLE["color"])
 
 
+def _orient(ax, scan: ScanData) -> None:
+    """Let the scan run from left to right (call once per group of shared x axes)."""
+    if scan.descending:
+        ax.invert_xaxis()
+
+
 def _change_handles(scan: ScanData) -> list:
     if not scan.changes:
         return []
@@ -96,6 +102,7 @@ def counts_plot(scan: ScanData):
                               markeredgecolor="black", label="open marker: added by refinement"))
     ax.set_xlabel(_xlabel(scan))
     ax.set_ylabel("number of CPs")
+    _orient(ax, scan)
     ax.yaxis.get_major_locator().set_params(integer=True)
     ax.legend(handles=handles + _change_handles(scan), loc="center left",
               bbox_to_anchor=(1.01, 0.5), fontsize=8, frameon=False)
@@ -187,6 +194,7 @@ def bond_cp_plot(scan: ScanData):
         ax.set_ylabel(label)
         ax.grid(alpha=0.3, lw=0.5)
     axes[-1].set_xlabel(_xlabel(scan))
+    _orient(axes[0], scan)
     handles.append(Line2D([], [], color="none", label="markers: sampled frames"))
     axes[0].legend(handles=handles + _change_handles(scan), loc="upper left",
                    bbox_to_anchor=(1.01, 1.0), fontsize=7.5, frameon=False,
@@ -218,6 +226,7 @@ def energy_plot(scan: ScanData):
     _mark_changes(ax, scan)
     ax.set_xlabel(_xlabel(scan))
     ax.set_ylabel("E − E_min (kcal/mol)")
+    _orient(ax, scan)
     ax.grid(alpha=0.3, lw=0.5)
     handles = [Line2D([], [], color=LINE_COLOURS[0], marker="o", ms=4, label="frame energy")]
     ax.legend(handles=handles + _change_handles(scan), loc="center left",
@@ -290,6 +299,7 @@ def fold_distance_plot(scan: ScanData):
     ax_d.set_ylabel("d (Å)")
     ax_d2.set_ylabel("d² (Å²)")
     ax_d2.set_xlabel(_xlabel(scan))
+    _orient(ax_d, scan)
     ax_d.legend(handles=handles + _change_handles(scan), loc="upper left",
                 bbox_to_anchor=(1.01, 1.0), fontsize=8, frameon=False)
     return Figure("fold_distance", to_png(fig),

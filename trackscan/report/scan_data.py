@@ -96,6 +96,12 @@ class ScanData:
         return sorted(frames, key=lambda f: (_num(f.get("value")), _num(f.get("index"))))
 
     @property
+    def descending(self) -> bool:
+        """True when the scan runs towards smaller coordinate values."""
+        values = [f.get("value") for f in self.frames]
+        return len(values) > 1 and _num(values[0]) > _num(values[-1])
+
+    @property
     def changes(self) -> list:
         """Changes in scan order (by ``between``, else by the first end of the bracket)."""
         changes = list(self.data.get("changes") or [])
