@@ -4,7 +4,8 @@ Per change (scan.json contract, DESIGN.md section 3, plus extensions):
 
 - ``estimate`` and ``estimate_method``: the fold extrapolation from the
   pair's squared separation when it lies inside the bracket
-  (``"fold-extrapolation"``), else the bracket midpoint
+  (``"fold-extrapolation"``), for a conflict the zero of the interpolated
+  path offset (``"path-offset-interpolation"``), else the bracket midpoint
   (``"bisection-midpoint"`` after refinement, ``"bracket-midpoint"`` when no
   frame was added);
 - ``evaluations``: frames added by refinement inside the change's initial
@@ -21,7 +22,10 @@ from __future__ import annotations
 
 import copy
 
-from trackscan.refine.indicators import DEFAULT_GTOL, fold_samples, fold_side
+from trackscan.refine.crossing import CROSSING, fit_crossing
+from trackscan.refine.indicators import (
+    DEFAULT_GTOL, conflict_samples, conflict_spec, fold_samples, fold_side,
+)
 from trackscan.refine.loop import change_context
 from trackscan.refine.proposals import bisection_count, fit_fold
 
@@ -61,8 +65,15 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None,
         estimate, method, model_error = mid, ("bisection-midpoint" if ctx.evaluations
                                               else ch.get("estimate_method", "bracket-midpoint")), None
         info = {"initial_bracket": [float(x) for x in ctx.base]}
+        spec = conflict_spec(ch)
         side = fold_side(ch)
-        if side is not None:
+        if spec is not None:
+            fit = fit_crossing(conflict_samples(frames, spec), lo=lo, hi=hi)
+            if fit is not None:
+                info["offset_fit"] = fit.to_dict()
+                if lo < fit.estimate < hi:
+                    estimate, method, model_error = fit.estimate, CROSSING, fit.error
+        elif side is not None:
             fit = fit_fold(fold_samples(frames, side, gtol=gtol), absent=side.absent)
             if fit is not None:
                 info["fold_fit"] = fit.to_dict()

@@ -1,5 +1,9 @@
 """Indicators of a change read from tracked frame dicts.
 
+Folds: the squared separation of the coalescing pair (one-sided).
+Conflicts: the signed offset of the switching bond path from the surface
+of the bond CP it runs into at the switch (two-sided; :func:`path_offset`).
+
 For a fold, tracking (:func:`trackscan.tracking.track_scan`) names the
 coalescing pair of each change in ``change["resolution"]["pairs"]`` (critical
 point ids, persistent tracks, and the frame where the pair is last or first
@@ -24,7 +28,8 @@ from trackscan.tracking.resolution import interpolation_floor
 #: Default gradient tolerance of the critical-point search.
 DEFAULT_GTOL = AnalysisSettings().gtol
 
-__all__ = ["FoldSide", "fold_side", "fold_samples", "is_fold", "position_error"]
+__all__ = ["FoldSide", "fold_side", "fold_samples", "is_fold", "position_error", "ConflictSpec",
+           "conflict_spec", "conflict_samples", "path_offset", "is_conflict"]
 
 
 @dataclass(frozen=True)
@@ -162,4 +167,167 @@ def fold_samples(frames, side: FoldSide, *, gtol: float = DEFAULT_GTOL) -> list:
         err = 2.0 * math.sqrt(d2) * math.hypot(sa, sb)
         out.append(FoldSample(float(frames[k]["value"]), d2, lam2, err))
         k += side.step
+    return out
+
+
+# -- conflicts --------------------------------------------------------------
+
+@dataclass(frozen=True)
+class ConflictSpec:
+    """A conflict change whose switching path can be followed.
+
+    Attributes
+    ----------
+    track : str
+        Track of the bond CP whose path switches ends.
+    old, new : int
+        Atom numbers of the end before and after the switch.
+    between : tuple of int
+        Scan-order indices of the bracket frames.
+    """
+
+    track: str
+    old: int
+    new: int
+    between: tuple
+
+
+def is_conflict(change: dict) -> bool:
+    """True for a conflict change, resolved or not."""
+    mech = change.get("mechanism")
+    return mech == "conflict" or (mech == "unresolved"
+                                  and change.get("mechanism_candidate") == "conflict")
+
+
+def conflict_spec(change: dict) -> ConflictSpec | None:
+    """The switching bond path of a conflict with one switch between atoms."""
+    if not is_conflict(change):
+        return None
+    sw = [e for e in change.get("events") or [] if e.get("kind") == "bond_switched"]
+    if len(sw) != 1:
+        return None
+    before, after = list(sw[0].get("atoms_before") or []), list(sw[0].get("atoms_after") or [])
+    old = [a for a in before if a not in after]
+    new = [a for a in after if a not in before]
+    if len(old) != 1 or len(new) != 1 or not all(isinstance(a, int) for a in old + new):
+        return None
+    return ConflictSpec(str(sw[0]["track"]), old[0], new[0], tuple(change["between"]))
+
+
+def _atom_position(frame, number):
+    atoms = frame.get("atoms") or []
+    if not 1 <= number <= len(atoms):
+        return None
+    return np.asarray(atoms[number - 1]["position_bohr"], dtype=float)
+
+
+def _switch_geometry(frame, spec: ConflictSpec):
+    """(path toward the switching end, c, e) in one frame, or None."""
+    cps = frame.get("critical_points") or []
+    b = next((cp for cp in cps if cp.get("track") == spec.track), None)
+    x, y = _atom_position(frame, spec.old), _atom_position(frame, spec.new)
+    if b is None or x is None or y is None:
+        return None
+    path = next((p for p in frame.get("bond_paths") or [] if p.get("cp") == b.get("id")), None)
+    if path is None or len(path.get("points_bohr") or []) < 3:
+        return None
+    ends = sorted([spec.old, spec.new])
+    by_id = {cp.get("id"): cp for cp in cps}
+    cands = [by_id.get(p.get("cp")) for p in frame.get("bond_paths") or []
+             if sorted(p.get("atoms") or []) == ends]
+    cands = [c for c in cands if c is not None and c.get("eigenvectors")]
+    if not cands:
+        return None
+    pb = np.asarray(b["position_bohr"], dtype=float)
+    c = min(cands, key=lambda cp: float(np.linalg.norm(np.asarray(cp["position_bohr"]) - pb)))
+    pc = np.asarray(c["position_bohr"], dtype=float)
+    e = np.asarray(c["eigenvectors"][2], dtype=float)
+    if np.dot(e, y - x) < 0:
+        e = -e
+    pts = np.asarray(path["points_bohr"], dtype=float)
+    i = int(np.argmin(np.linalg.norm(pts - pb, axis=1)))
+    # walk from the bond CP towards the polyline end nearer the intervening point
+    tail = pts[i:] if np.linalg.norm(pts[-1] - pc) < np.linalg.norm(pts[0] - pc) else pts[i::-1]
+    return tail, pc, e
+
+
+def _in_plane(points, pc, e):
+    d = points - pc
+    h = d @ e
+    return h, np.linalg.norm(d - h[:, None] * e, axis=1)
+
+
+def path_offset(frame, spec: ConflictSpec, radius: float):
+    """Signed offset of the switching path from the intervening bond CP's surface.
+
+    Parameters
+    ----------
+    frame : dict
+        A tracked frame with bond path polylines.
+    spec : ConflictSpec
+    radius : float, bohr
+        In-plane distance from the intervening point at which the offset is
+        read.
+
+    Returns
+    -------
+    float or None
+        ``(p - c) . e`` at the first point ``p`` of the path (walking from
+        its bond CP towards the switching end) whose distance from ``c``
+        within the plane normal to ``e`` falls to `radius`; ``c`` is the
+        bond CP linking the old and new partners, ``e`` its bond direction
+        oriented from the old partner to the new.  None when the frame lacks
+        a piece or the path never comes that close.
+
+    Notes
+    -----
+    At a conflict the path runs into ``c`` (a saddle connection); on either
+    side it passes ``c`` on the old or the new partner's side of ``c``'s
+    interatomic surface, which near ``c`` is the plane normal to ``e``
+    (METHODS.md section 2: the signed offset changes sign, so ordinary root
+    bracketing applies).  Read at a fixed distance from ``c`` the offset
+    depends smoothly, to first order linearly, on the coordinate; the
+    closest approach to ``c`` would not (it scales as a power set by the
+    eigenvalue ratio at ``c``).
+    """
+    geo = _switch_geometry(frame, spec)
+    if geo is None:
+        return None
+    tail, pc, e = geo
+    h, rho = _in_plane(tail, pc, e)
+    for j in range(1, len(tail)):
+        if rho[j - 1] >= radius > rho[j]:
+            f = (rho[j - 1] - radius) / (rho[j - 1] - rho[j])
+            return float(h[j - 1] + f * (h[j] - h[j - 1]))
+    return None
+
+
+def conflict_samples(frames, spec: ConflictSpec, *, per_side: int = 3) -> list:
+    """Signed offsets ``(value, g)`` of frames next to the bracket, both sides.
+
+    The reading radius is half the in-plane distance of the switching bond
+    CP from the intervening point, the smaller of the two bracket frames'.
+    """
+    from trackscan.refine.crossing import SignedSample
+
+    radii = []
+    for k in spec.between:
+        if not 0 <= k < len(frames):
+            return []
+        geo = _switch_geometry(frames[k], spec)
+        if geo is None:
+            return []
+        tail, pc, e = geo
+        radii.append(_in_plane(tail[:1], pc, e)[1][0])
+    radius = 0.5 * min(radii)
+    out = []
+    for start, step in ((spec.between[0], -1), (spec.between[1], +1)):
+        k, n = start, 0
+        while 0 <= k < len(frames) and n < per_side:
+            g = path_offset(frames[k], spec, radius)
+            if g is None:
+                break
+            out.append(SignedSample(float(frames[k]["value"]), g))
+            k += step
+            n += 1
     return out

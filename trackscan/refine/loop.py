@@ -18,7 +18,10 @@ from dataclasses import dataclass, field
 
 from trackscan.errors import InputError
 from trackscan.progress import report
-from trackscan.refine.indicators import DEFAULT_GTOL, fold_samples, fold_side, is_fold
+from trackscan.refine.crossing import CROSSING, propose_crossing
+from trackscan.refine.indicators import (
+    DEFAULT_GTOL, conflict_samples, conflict_spec, fold_samples, fold_side, is_fold,
+)
 from trackscan.refine.proposals import (
     BISECTION, DECIMALS, FOLD, allocate_slots, bisection_count, propose_bisection, propose_fold,
 )
@@ -34,6 +37,9 @@ REFINE_KEY = "refine"
 #: Smallest tolerance: proposals are rounded to 1e-6 (the resolution of
 #: generated frame names), so brackets cannot usefully be narrower than 1e-5.
 MIN_TOLERANCE = 1e-5
+
+#: Proposal methods that come from a model (their probes carry expectations).
+MODEL_METHODS = (FOLD, CROSSING)
 
 
 @dataclass(frozen=True)
@@ -137,39 +143,60 @@ def change_context(frames, change) -> ChangeContext:
 
 
 def _surprised(ctx: ChangeContext, side) -> bool:
-    """Did the last fold step find the pair on the side it did not expect?"""
-    if side is None:
-        return False
-    sign = 1.0 if side.absent > side.present else -1.0
+    """Did the last model step find its probe on the side it did not expect?
+
+    `side` is the change's FoldSide (expectations ``present``/``absent``), or
+    None for value-based expectations (``below``/``above`` the change).
+    """
+    v0, v1 = (float(x) for x in ctx.change["bracket"])
+    lo, hi = min(v0, v1), max(v0, v1)
     for rec in ctx.last:
-        if rec.get("method") != FOLD or not rec.get("expected"):
+        if rec.get("method") not in MODEL_METHODS or not rec.get("expected"):
             continue
-        got = "present" if (rec["value"] - side.present) * sign <= 0 else "absent"
-        if got != rec["expected"]:
+        want = rec["expected"]
+        if want in ("present", "absent"):
+            if side is None:
+                continue
+            sign = 1.0 if side.absent > side.present else -1.0
+            got = "present" if (rec["value"] - side.present) * sign <= 0 else "absent"
+        else:
+            got = "below" if rec["value"] <= lo else "above"
+        if got != want:
             return True
     return False
 
 
 def _previous_delta(ctx: ChangeContext):
-    deltas = [r.get("delta") for r in ctx.last if r.get("method") == FOLD]
+    deltas = [r.get("delta") for r in ctx.last if r.get("method") in MODEL_METHODS]
     deltas = [d for d in deltas if isinstance(d, (int, float))]
     return max(deltas) if deltas else None
 
 
 def propose_for_change(tracked_frames, ctx: ChangeContext, *, tolerance: float, n: int,
                        gtol: float = DEFAULT_GTOL):
-    """Proposal for one open change (fold model when it applies, else bisection)."""
+    """Proposal for one open change.
+
+    Fold changes: fold extrapolation; conflicts with one switch between two
+    atoms: path-offset interpolation; anything else: bisection.
+    """
     ch = ctx.change
     v0, v1 = (float(x) for x in ch["bracket"])
+    lo, hi = min(v0, v1), max(v0, v1)
+    common = dict(tol=tolerance, n=n, evaluations=ctx.evaluations,
+                  initial_width=abs(ctx.base[1] - ctx.base[0]),
+                  previous_delta=_previous_delta(ctx))
+    spec = conflict_spec(ch)
+    if spec is not None:
+        return propose_crossing(lo, hi, conflict_samples(tracked_frames, spec),
+                                surprised=_surprised(ctx, None), **common)
     side = fold_side(ch)
     if side is None:
         why = ("tracking recorded no fold pair" if is_fold(ch) else
-               f"no fold indicator for a {ch.get('mechanism')} change")
-        return propose_bisection(min(v0, v1), max(v0, v1), n, reason=why)
+               f"no indicator for a {ch.get('mechanism')} change")
+        return propose_bisection(lo, hi, n, reason=why)
     samples = fold_samples(tracked_frames, side, gtol=gtol)
-    return propose_fold(side.present, side.absent, samples, tol=tolerance, n=n,
-                        evaluations=ctx.evaluations, initial_width=abs(ctx.base[1] - ctx.base[0]),
-                        previous_delta=_previous_delta(ctx), surprised=_surprised(ctx, side))
+    return propose_fold(side.present, side.absent, samples,
+                        surprised=_surprised(ctx, side), **common)
 
 
 def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 1,
@@ -218,10 +245,11 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
             existing.add(v)
             meta = {"round": int(round_number), "method": prop.method,
                     "bracket": [float(x) for x in ctx.change["bracket"]]}
-            if prop.method == FOLD:
+            if prop.method in MODEL_METHODS:
                 meta["delta"] = float(prop.delta)
                 meta["expected"] = e
-                meta["fold_estimate"] = float(prop.fit.estimate)
+                fit = prop.fit if prop.fit is not None else prop.crossing
+                meta["model_estimate"] = float(fit.estimate)
             probes.append(Probe(float(v), meta))
     probes.sort(key=lambda p: p.value)
     if budget is not None:

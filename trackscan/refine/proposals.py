@@ -4,6 +4,11 @@ Two kinds of proposal:
 
 * **bisection** (and its (P+1)-section for P points per round): the
   baseline, with no model of the indicators;
+* **path-offset interpolation** for conflicts: the signed offset of the
+  switching bond path from the intervening bond CP changes sign at the
+  conflict (METHODS.md section 2), so Brent-style inverse interpolation
+  with the same safeguards applies
+  (:func:`trackscan.refine.crossing.propose_crossing`);
 * **fold extrapolation**: on the side of the bracket where the coalescing
   pair of critical points still exists, the fold normal form
   ``V = kappa x^3 / 6 + u x`` with ``u ∝ s - s*`` gives a squared separation
@@ -140,7 +145,9 @@ class Proposal:
         For fold steps, the side each value is expected on (``"present"`` or
         ``"absent"``); empty for bisection.
     delta : float or None
-        For fold steps, the half-width of the model's uncertainty interval.
+        For model steps, the half-width of the model's uncertainty interval.
+    crossing : trackscan.refine.crossing.CrossingFit or None
+        For conflict steps, the interpolated zero of the path offset.
     """
 
     values: tuple
@@ -149,6 +156,7 @@ class Proposal:
     fit: FoldFit | None = None
     expected: tuple = field(default_factory=tuple)
     delta: float | None = None
+    crossing: object = None
 
 
 def bisection_count(width: float, tol: float) -> int:
@@ -428,3 +436,4 @@ def allocate_slots(widths, jobs: int) -> list:
     for j in range(jobs):
         slots[order[j % m]] += 1 if m else 0
     return slots
+
