@@ -7,6 +7,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 import yaml
+from scipy.optimize import fsolve
 
 from trackscan.cli import main
 from trackscan.generators import make_generator
@@ -16,49 +17,22 @@ from trackscan.promolecule import Promolecule
 SCANS = Path(__file__).resolve().parents[2] / "scans"
 
 
-def _newton(field, x, steps=300):
-    for _ in range(steps):
-        _, g, h = field.evaluate(x[None])
-        step = np.linalg.solve(h[0], g[0])
-        n = np.linalg.norm(step)
-        x = x - (step if n < 0.02 else step * 0.02 / n)
-        if np.linalg.norm(g[0]) < 1e-13:
-            break
-    return x, np.linalg.norm(g[0])
-
-
-def _fold_angle(gen):
+def _fold_angle(gen, guess=65.85):
     """Angle where the C1-C2 bond CP meets the ring CP, on the exact model field.
 
-    Follows both points by Newton from 60 degrees in small steps and
-    bisects on their existence (they annihilate in a fold, so past s* Newton
-    from the previous positions no longer finds two distinct points).
+    Solves grad rho = 0 and det(Hessian) = 0 for the position and the angle
+    together (the degenerate critical point of the fold), with SciPy.
     """
-    def pair(angle, xb, xr):
-        geo = gen.geometry(angle)
-        f = Promolecule(geo.numbers, geo.positions)
-        b, gb = _newton(f, xb)
-        r, gr = _newton(f, xr)
-        ok = gb < 1e-10 and gr < 1e-10 and np.linalg.norm(b - r) > 1e-3
-        return ok, b, r
+    def equations(u):
+        geo = gen.geometry(u[3])
+        _, g, h = Promolecule(geo.numbers, geo.positions).evaluate(u[None, :3])
+        return np.r_[g[0], np.linalg.det(h[0])] * 100.0
 
-    p = gen.geometry(60.0).positions
-    xb, xr = 0.5 * (p[0] + p[1]), p[:3].mean(axis=0)
-    lo = 60.0
-    for a in np.arange(61.0, 70.0, 1.0):
-        ok, b, r = pair(a, xb, xr)
-        if not ok:
-            hi = a
-            break
-        lo, xb, xr = a, b, r
-    for _ in range(12):
-        mid = 0.5 * (lo + hi)
-        ok, b, r = pair(mid, xb, xr)
-        if ok:
-            lo, xb, xr = mid, b, r
-        else:
-            hi = mid
-    return 0.5 * (lo + hi)
+    p = gen.geometry(guess).positions
+    start = 0.5 * (0.5 * (p[0] + p[1]) + p[:3].mean(axis=0))
+    sol, info, ier, msg = fsolve(equations, np.r_[start, guess], full_output=True, xtol=1e-12)
+    assert np.abs(equations(sol)).max() < 1e-10, msg
+    return float(sol[3])
 
 
 def test_demo_manifests_load():
@@ -86,6 +60,9 @@ def test_promolecule_demo_runs_and_finds_the_fold(tmp_path, capsys):
     assert 65.5 < s_star < 66.2
     lo, hi = sorted(folds[0]["bracket"])
     assert lo < s_star < hi
+    # the demo refined the bracket (listed frames are 3 degrees apart)
+    assert hi - lo <= 0.5 + 1e-9
+    assert len(scan["frames"]) > 9            # 9 listed + the refinement frames
 
 
 @pytest.mark.slow
