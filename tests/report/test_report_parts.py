@@ -168,3 +168,15 @@ def test_descending_scan_runs_left_to_right_in_plots():
     assert scan.descending and [f["value"] for f in scan.frames] == [2.1, 1.9, 1.7, 1.5]
     assert not load_scan(_fixture()).descending
     assert counts_plot(scan) is not None
+
+
+def test_resolution_words_when_the_pair_is_below_the_floor():
+    raw = _fixture()
+    pair = raw["changes"][0]["resolution"]["pairs"][0]
+    pair.update(margin=0.125, rho_difference=6.6e-5)
+    raw["changes"][0]["resolution"]["resolved"] = False
+    scan = load_scan(raw)
+    text = resolution_words(scan.changes[0], scan)
+    # d_min = 0.3 * 0.125**(-1/3) = 0.6 bohr; reach = 0.1312345 * 0.125**(-2/3) = 0.52 Å
+    assert "already below the floor" in text and "d ≳ 0.6 bohr" in text
+    assert "≈ 0.52 Å from the fold" in text and "NOT resolved" in text

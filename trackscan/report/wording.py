@@ -257,12 +257,23 @@ def resolution_words(change, scan: ScanData) -> str:
         if _finite(margin) and margin > 0:
             text += f" (margin {fmt_sig(margin, 3)})"
             if _finite(sep):
-                text += f"; resolvable down to d ≈ {fmt_sig(sep * margin ** (-1 / 3), 2)} bohr"
+                d_min = fmt_sig(sep * margin ** (-1 / 3), 2)
+                reach = None
                 if frame is not None and _finite(frame.get("value")) and _finite(estimate):
-                    reach = abs(frame["value"] - estimate) * margin ** (-2 / 3)
-                    text += (f", i.e. to within ≈ {fmt_sig(reach, 2)} {scan.unit_symbol} of "
-                             "the fold taken at the estimate (fold normal form)"
-                             ).replace("  ", " ")
+                    reach = fmt_sig(abs(frame["value"] - estimate) * margin ** (-2 / 3), 2)
+                unit = f" {scan.unit_symbol}" if scan.unit_symbol else ""
+                if margin >= 1:
+                    text += f"; resolvable down to d ≈ {d_min} bohr"
+                    if reach is not None:
+                        text += (f", i.e. to within ≈ {reach}{unit} of the fold taken at the "
+                                 "estimate (fold normal form)")
+                else:
+                    text += (f"; already below the floor: the grid follows the pair only while "
+                             f"d ≳ {d_min} bohr")
+                    if reach is not None:
+                        text += (f", i.e. until ≈ {reach}{unit} from the fold taken at the "
+                                 "estimate (fold normal form); frames closer than that cannot "
+                                 "tell the pair from noise")
         parts.append(text)
     if not res.get("pairs"):
         floors = res.get("rho_floor")
