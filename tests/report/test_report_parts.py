@@ -180,3 +180,24 @@ def test_resolution_words_when_the_pair_is_below_the_floor():
     # d_min = 0.3 * 0.125**(-1/3) = 0.6 bohr; reach = 0.1312345 * 0.125**(-2/3) = 0.52 Å
     assert "already below the floor" in text and "d ≳ 0.6 bohr" in text
     assert "≈ 0.52 Å from the fold" in text and "NOT resolved" in text
+
+
+def test_fold_zoom_shows_the_frames_nearest_the_fold():
+    import copy
+    from trackscan.report.plots import ZOOM_FRAMES, fold_zoom_plot
+    raw = _fixture()
+    assert fold_zoom_plot(load_scan(raw), load_scan(raw).changes[0], 1) is None  # short scan
+    with_pair, without = raw["frames"][1], raw["frames"][2:]
+    frames = []
+    for i, v in enumerate((0.5, 0.7, 0.9, 1.1, 1.3, 1.5, 1.7)):
+        f = copy.deepcopy(with_pair)
+        f.update(index=i, value=v)
+        frames.append(f)
+    for j, f in enumerate(without):
+        f.update(index=7 + j)
+    raw["frames"] = frames + without
+    raw["changes"][0]["between"] = [6, 7]
+    scan = load_scan(raw)
+    fig = fold_zoom_plot(scan, scan.changes[0], 1)
+    assert fig is not None and fig.name == "fold_zoom_change1"
+    assert f"the {ZOOM_FRAMES} frames nearest the fold" in fig.caption

@@ -123,6 +123,9 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
         fig = graphs.graph_figure(scan, change, k)
         if fig is not None:
             blocks.append(fig)
+        zoom = plots.fold_zoom_plot(scan, change, k)
+        if zoom is not None:
+            blocks.append(zoom)
         dmap, note = density_map.density_map_figure(scan, change, k)
         if dmap is not None:
             blocks.append(dmap)

@@ -18,8 +18,8 @@ from trackscan.report.style import (BRACKET_STYLE, CP_STYLE, ESTIMATE_STYLE, LIN
                                     LINE_STYLES, new_figure, to_png)
 from trackscan.units import BOHR_IN_ANGSTROM, HARTREE_IN_KCAL_PER_MOL
 
-__all__ = ["counts_plot", "bond_cp_plot", "energy_plot", "fold_distance_plot", "bond_tracks",
-           "MAX_LINES"]
+__all__ = ["counts_plot", "bond_cp_plot", "energy_plot", "fold_distance_plot", "fold_zoom_plot",
+           "fold_series", "bond_tracks", "MAX_LINES", "ZOOM_FRAMES"]
 
 # Marker shapes cycled through the bond paths, so coinciding lines stay distinguishable.
 _MARKERS = ("o", "s", "^", "D", "v", "P")
@@ -307,3 +307,49 @@ def fold_distance_plot(scan: ScanData):
                   "the frames where both exist. Near a fold d² falls linearly with the "
                   "coordinate (fold normal form), so the lower panel should end in a straight "
                   "line pointing at the estimate.", "fold CP distance")
+
+
+#: Frames nearest the fold shown in the zoomed fold plot.
+ZOOM_FRAMES = 5
+
+
+def fold_zoom_plot(scan: ScanData, change, number: int):
+    """d and d² of a fold's coalescing pair in the frames nearest the fold, or None.
+
+    Made only when those frames span less than half the scan (else the plot
+    along the scan shows the same).
+    """
+    s = fold_series(scan, change)
+    bracket = change.get("bracket")
+    if s is None or len(s[1]) < 2 or not bracket:
+        return None
+    label, x, d = s
+    near = np.argsort(np.abs(x - float(np.mean(bracket))))[:ZOOM_FRAMES]
+    near = np.sort(near)
+    x, d = x[near], d[near]
+    values = [f["value"] for f in scan.frames]
+    lo, hi = min(x.min(), min(bracket)), max(x.max(), max(bracket))
+    if (hi - lo) >= 0.5 * (max(values) - min(values)):
+        return None
+    fig = new_figure(7.5, 4.6)
+    ax_d, ax_d2 = fig.subplots(2, 1, sharex=True)
+    colour = LINE_COLOURS[0]
+    ax_d.plot(x, d, color=colour, marker="o", ms=5, lw=1.3)
+    ax_d2.plot(x, d ** 2, color=colour, marker="o", ms=5, lw=1.3)
+    pad = 0.05 * (hi - lo)
+    for ax in (ax_d, ax_d2):
+        _mark_changes(ax, scan, numbers=ax is ax_d)
+        ax.set_xlim(lo - pad, hi + pad)
+        ax.grid(alpha=0.3, lw=0.5)
+        ax.set_ylim(bottom=0)
+    ax_d.set_ylabel("d (Å)")
+    ax_d2.set_ylabel("d² (Å²)")
+    ax_d2.set_xlabel(_xlabel(scan))
+    _orient(ax_d, scan)
+    handles = [Line2D([], [], color=colour, marker="o", ms=5, label=label)]
+    ax_d.legend(handles=handles + _change_handles(scan), loc="upper left",
+                bbox_to_anchor=(1.01, 1.0), fontsize=8, frameon=False)
+    return Figure(f"fold_zoom_change{number}", to_png(fig),
+                  f"Change {number}: distance d between the coalescing CPs in the "
+                  f"{len(x)} frames nearest the fold, and d², which the fold normal form makes "
+                  "linear in the coordinate.", f"fold CP distance near change {number}")
