@@ -210,3 +210,10 @@ def test_trajectory_rejects_duplicates_and_other_atoms():
     c = XYZFrame([1, 3], [[0, 0, 0], [0, 0, 1.5]])
     with pytest.raises(Exception, match="atom 2"):
         TrajectoryDrive([a, c], [1.0, 2.0])
+
+
+def test_undefined_dihedral_is_an_error():
+    # atoms 1-2-3 on a line: the dihedral 1-2-3-4 has no value to drive
+    f = XYZFrame([6, 6, 6, 1], np.array([[0, 0, 0], [1.2, 0, 0], [2.4, 0, 0], [3, 1, 0]]) * A)
+    with pytest.raises(GeneratorError, match="undefined"):
+        CoordinateDrive(f, "dihedral", [1, 2, 3, 4]).geometry(30.0)

@@ -177,6 +177,20 @@ def _perpendicular(v):
     return w / np.linalg.norm(w)
 
 
+def _undefined(kind, p) -> bool:
+    """True when the coordinate cannot be driven on points `p` (bohr)."""
+    tiny = 1e-8
+    if kind == "distance":
+        return np.linalg.norm(p[1] - p[0]) < tiny
+    if kind == "angle":
+        return min(np.linalg.norm(p[0] - p[1]), np.linalg.norm(p[2] - p[1])) < tiny
+    b0, b1, b2 = p[0] - p[1], p[2] - p[1], p[3] - p[2]
+    n1 = np.linalg.norm(np.cross(b0, b1))
+    n2 = np.linalg.norm(np.cross(b1, b2))
+    scale = max(np.linalg.norm(b0), np.linalg.norm(b1), np.linalg.norm(b2))
+    return np.linalg.norm(b1) < tiny or min(n1, n2) < 1e-6 * scale * scale
+
+
 class CoordinateDrive:
     """A base geometry with one driven internal coordinate.
 
@@ -267,6 +281,9 @@ class CoordinateDrive:
         pos = np.array(self.base.positions)
         idx = np.array(self.moving) - 1
         a = [x - 1 for x in self.atoms]
+        if _undefined(self.kind, pos[a]):
+            raise GeneratorError(f"the {self.kind} {'-'.join(map(str, self.atoms))} is undefined "
+                                 "on the base geometry (coincident or collinear atoms)")
         current = measure(self.kind, self.atoms, pos)
         if self.kind == "distance":
             if target <= 0:
