@@ -258,3 +258,16 @@ def test_skewed_grid_gives_the_same_critical_points():
         assert a.atoms == b.atoms
         assert np.linalg.norm(a.position - b.position) < 2e-3
         assert a.laplacian == pytest.approx(b.laplacian, rel=0.02)
+
+
+def test_degenerate_point_makes_the_frame_incomplete_without_retries(warnings_log):
+    # with a huge degenerate_tol the two curvatures (-0.449) across H2's bond CP count as
+    # zero: the CP is degenerate, not forced to be a bond CP
+    pos = np.array([[0.0, 0.0, -0.7], [0.0, 0.0, 0.7]])
+    grid = promolecule_grid([1, 1], pos, spacing=0.2, margin=2.5)
+    topo = analyze_frame(grid, AnalysisSettings(degenerate_tol=0.5), field=Promolecule([1, 1], pos))
+    assert topo.counts["degenerate"] == 1 and topo.counts["bond"] == 0
+    (d,) = topo.by_kind("degenerate")
+    assert d.id == "d1" and d.rank < 3
+    assert not topo.complete and topo.seeding_level == 0
+    assert any("degenerate" in r.message for r in warnings_log.records)

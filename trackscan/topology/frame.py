@@ -183,7 +183,9 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
     -----
     If Poincare-Hopf fails, the search is repeated with denser seeds (up to
     ``settings.seed_retries`` times); if it still fails the frame is
-    returned with ``complete = False`` and a warning is logged.
+    returned with ``complete = False`` and a warning is logged.  A frame
+    with degenerate CPs is also incomplete (their index is undefined), but
+    is not re-seeded.
     """
     from trackscan.fields.grid_field import GridField
 
@@ -230,14 +232,20 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
             counts[cp.kind] += 1
         ph = poincare_hopf(counts, grid.periodic)
         logger.debug("seeding level %d: %d seeds, counts %s, PH %s", level, n_seeds, counts, ph)
-        if ph["holds"]:
-            break
+        if ph["holds"] or ph["value"] == ph["expected"]:
+            break      # holds, or fails only through degenerate CPs, which seeds cannot mend
         if level < settings.seed_retries:
             logger.info("%s: Poincare-Hopf gives %d (expected %d); retrying with denser seeds",
                         grid.source or "grid", ph["value"], ph["expected"])
     timings["critical_points"] = time.perf_counter() - t1
     complete = bool(ph["holds"])
-    if not complete:
+    if not complete and ph["value"] == ph["expected"]:
+        n_deg = sum(cp.kind == "degenerate" for cp in cps)
+        msg = (f"Poincare-Hopf cannot be confirmed: {n_deg} degenerate critical point(s) "
+               f"(an eigenvalue below {settings.degenerate_tol:g})")
+        warnings.append(msg)
+        logger.warning("%s: %s", grid.source or "grid", msg)
+    elif not complete:
         msg = (f"Poincare-Hopf fails: n - b + r - c = {ph['value']}, expected {ph['expected']} "
                f"(after {level} retries); critical points may be missing")
         warnings.append(msg)
