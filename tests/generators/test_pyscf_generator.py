@@ -50,6 +50,25 @@ def test_energy_matches_direct_pyscf(h2_run):
     assert not out.cached
 
 
+def test_cube_values_are_the_scf_density(h2_run):
+    # density of an independent RHF run, evaluated by PySCF at grid points
+    from pyscf.dft import numint
+
+    _, _, out = h2_run
+    grid = read_cube(out.path)
+    mol = gto.M(atom=[(1, tuple(p)) for p in grid.positions], unit="Bohr", basis="sto-3g",
+                verbose=0)
+    mf = scf.RHF(mol)
+    mf.conv_tol = 1e-11
+    mf.kernel()
+    idx = np.array([[i, j, k] for i in (0, 5, 10) for j in (3, grid.shape[1] // 2)
+                    for k in (2, grid.shape[2] // 2, grid.shape[2] - 4)])
+    pts = grid.position(idx)
+    rho = numint.eval_rho(mol, numint.eval_ao(mol, pts), mf.make_rdm1())
+    # the cube keeps 6 significant digits
+    np.testing.assert_allclose(grid.values[tuple(idx.T)], rho, rtol=2e-5, atol=1e-12)
+
+
 def test_cube_integrates_to_two_electrons_at_the_geometry(h2_run):
     _, gen, out = h2_run
     grid = read_cube(out.path)
