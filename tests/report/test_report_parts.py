@@ -189,14 +189,15 @@ def test_fold_zoom_shows_the_frames_nearest_the_fold():
     assert fold_zoom_plot(load_scan(raw), load_scan(raw).changes[0], 1) is None  # short scan
     with_pair, without = raw["frames"][1], raw["frames"][2:]
     frames = []
-    for i, v in enumerate((0.5, 0.7, 0.9, 1.1, 1.3, 1.5, 1.7)):
+    values = [round(0.1 * i, 10) for i in range(1, 18)]      # 0.1 ... 1.7 Å
+    for i, v in enumerate(values):
         f = copy.deepcopy(with_pair)
         f.update(index=i, value=v)
         frames.append(f)
     for j, f in enumerate(without):
-        f.update(index=7 + j)
+        f.update(index=len(values) + j)
     raw["frames"] = frames + without
-    raw["changes"][0]["between"] = [6, 7]
+    raw["changes"][0]["between"] = [len(values) - 1, len(values)]
     scan = load_scan(raw)
     fig = fold_zoom_plot(scan, scan.changes[0], 1)
     assert fig is not None and fig.name == "fold_zoom_change1"
