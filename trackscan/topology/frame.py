@@ -232,17 +232,18 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
             counts[cp.kind] += 1
         ph = poincare_hopf(counts, grid.periodic)
         logger.debug("seeding level %d: %d seeds, counts %s, PH %s", level, n_seeds, counts, ph)
-        if ph["holds"] or ph["value"] == ph["expected"]:
-            break      # holds, or fails only through degenerate CPs, which seeds cannot mend
+        if ph["holds"] or counts["degenerate"]:
+            break      # holds, or degenerate CPs (undefined index) that seeds cannot mend
         if level < settings.seed_retries:
             logger.info("%s: Poincare-Hopf gives %d (expected %d); retrying with denser seeds",
                         grid.source or "grid", ph["value"], ph["expected"])
     timings["critical_points"] = time.perf_counter() - t1
     complete = bool(ph["holds"])
-    if not complete and ph["value"] == ph["expected"]:
-        n_deg = sum(cp.kind == "degenerate" for cp in cps)
+    n_deg = sum(cp.kind == "degenerate" for cp in cps)
+    if not complete and n_deg:
         msg = (f"Poincare-Hopf cannot be confirmed: {n_deg} degenerate critical point(s) "
-               f"(an eigenvalue below {settings.degenerate_tol:g})")
+               f"(an eigenvalue below {settings.degenerate_tol:g}); n - b + r - c of the "
+               f"others = {ph['value']}, expected {ph['expected']}")
         warnings.append(msg)
         logger.warning("%s: %s", grid.source or "grid", msg)
     elif not complete:
