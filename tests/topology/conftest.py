@@ -15,12 +15,6 @@ import math
 import numpy as np
 import pytest
 
-pyscf = pytest.importorskip("pyscf")
-from pyscf import gto, scf  # noqa: E402
-from pyscf.tools import cubegen  # noqa: E402
-
-ANG = 1.0 / 0.529177210903
-
 
 def _water():
     # experimental geometry: r(OH) 0.9572 A, angle 104.52 deg
@@ -169,6 +163,8 @@ class Case:
     """One molecule: SCF, analytic field, reference CPs and cached cubes."""
 
     def __init__(self, name, tmpdir):
+        from pyscf import gto, scf
+
         atoms = GEOMETRIES[name]()
         atoms = [(s, tuple(np.asarray(p) + _SHIFT)) for s, p in atoms]
         self.name = name
@@ -187,6 +183,8 @@ class Case:
     def cube(self, spacing, margin=3.0):
         key = (spacing, margin)
         if key not in self._cubes:
+            from pyscf.tools import cubegen
+
             path = self.tmpdir / f"{self.name}_{spacing:g}_{margin:g}.cube"
             cubegen.density(self.mol, str(path), self.dm, resolution=spacing, margin=margin)
             self._cubes[key] = path
@@ -203,6 +201,7 @@ class Case:
 @pytest.fixture(scope="session")
 def pyscf_case(tmp_path_factory):
     """Factory: ``pyscf_case(name)`` gives the cached :class:`Case`."""
+    pytest.importorskip("pyscf")
     tmp = tmp_path_factory.mktemp("pyscf_cubes")
     cache = {}
 

@@ -21,6 +21,7 @@ import pytest
 from trackscan.io.cube import read_cube
 from trackscan.topology import analyze_frame
 
+pytest.importorskip("pyscf")
 pytestmark = pytest.mark.slow
 
 CASES = ["water", "cyclopropane", "water_dimer"]
