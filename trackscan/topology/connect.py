@@ -149,18 +149,16 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
         pts = np.concatenate([p1[::-1], p2[1:]])
         length = float(np.linalg.norm(np.diff(pts, axis=0), axis=1).sum())
         atoms = [e1, e2]
+        reasons = (r1, r2)
         both_atoms = (t1 >= 0 and t2 >= 0 and t1 < len(nuclear) and t2 < len(nuclear))
         internuclear = (float(np.linalg.norm(p1[-1] - p2[-1])) if both_atoms else None)
-        if e1 is not None and e2 is not None and end_key(e2) < end_key(e1):
-            atoms = [e2, e1]
-            pts = pts[::-1]
-        elif e1 is None and e2 is not None:
-            atoms = [e2, None]
-            pts = pts[::-1]
+        if (e1 is not None and e2 is not None and end_key(e2) < end_key(e1)) or \
+                (e1 is None and e2 is not None):
+            atoms, reasons, pts = [e2, e1], (r2, r1), pts[::-1]
         cp.atoms = list(atoms)
         paths.append(BondPath(cp=cp, atoms=list(atoms), points=pts, length=length,
                               internuclear=internuclear,
-                              complete=(e1 is not None and e2 is not None), reasons=(r1, r2)))
+                              complete=(e1 is not None and e2 is not None), reasons=reasons))
     for i, cp in enumerate(rings):
         cp.atoms = _cyclic_sequence(ring_hits[i])
     if cages and rings:
