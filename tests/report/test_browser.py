@@ -64,3 +64,21 @@ def test_report_renders_in_headless_chromium(tmp_path):
     # content reaches down the page (the first figure sits below the tables)
     rows = np.where(~white.all(axis=1))[0]
     assert rows.max() > HEIGHT * 0.6
+
+
+@pytest.mark.skipif(_chromium() is None, reason="chromium is not installed")
+def test_report_prints_to_pdf(tmp_path):
+    import re
+    files = write_report(_fixture_scan(), tmp_path / "report", date="2026-12-01")
+    pdf = tmp_path / "report.pdf"
+    cmd = [_chromium(), "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+           "--no-first-run", "--disable-background-networking", "--disable-component-update",
+           "--disable-sync", f"--user-data-dir={tmp_path / 'profile'}", f"--print-to-pdf={pdf}",
+           "--no-pdf-header-footer", files.html.resolve().as_uri()]
+    subprocess.run(cmd, check=True, timeout=120, stdout=subprocess.DEVNULL,
+                   stderr=subprocess.DEVNULL)
+    data = pdf.read_bytes()
+    assert data.startswith(b"%PDF")
+    pages = len(re.findall(rb"/Type\s*/Page[^s]", data))
+    assert pages >= 3           # header and tables, the plots, the change figures
+    assert len(data) > 100_000  # the figures are in the PDF
