@@ -55,9 +55,10 @@ def summary_table(scan: ScanData) -> Table:
                 if bracket else "—")
         est = change.get("estimate")
         etxt = fmt_coord(est, estimate_decimals(change))
-        if etxt != "—":
-            etxt += " " + "; ".join(f"± {fmt_uncertainty(u)} ({label})"
-                                    for u, label in uncertainties(change))
+        spread = uncertainties(change)
+        if etxt != "—" and spread:
+            etxt += " " + "; ".join(f"± {fmt_uncertainty(unc)} ({label})"
+                                    for unc, label in spread)
         mech = str(change.get("mechanism") or "—")
         if change.get("mechanism_candidate") and change["mechanism_candidate"] != mech:
             mech += f" (looks like {change['mechanism_candidate']})"
