@@ -114,12 +114,10 @@ def test_density_on_plane_matches_the_analytic_model():
     pts = plane.lift(np.random.default_rng(0).uniform(-3, 3, (2000, 2)))
     got, exact = density_on_plane(grid, pts), model.value(pts)
     rel = np.abs(got - exact) / exact
-    core = np.linalg.norm(pts[:, None] - pos[None], axis=-1).min(axis=1) < 1.0
-    # tolerance of a contour map: levels 1, 2, 5 x 10^n are a factor >= 2 apart, so a
-    # few per cent moves no line visibly; inside 1 bohr of a nucleus (the cusp, where
-    # the innermost rings crowd anyway) only the bulk is checked
-    assert np.max(rel[~core]) < 0.05
-    assert np.median(rel) < 1e-3
+    # tolerance of a contour map: levels 1, 2, 5 x 10^n are a factor >= 2 apart, so 1 %
+    # moves no line visibly (measured: 1.6e-4 at worst, near the nuclei, 2e-6 median)
+    assert np.max(rel) < 1e-2
+    assert np.median(rel) < 1e-4
     assert np.isnan(density_on_plane(grid, [[50.0, 0, 0]]))[0]
 
 
