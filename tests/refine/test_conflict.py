@@ -59,6 +59,6 @@ def test_conflict_refined_by_path_offset():
     lo, hi = sorted(ch["bracket"])
     assert hi - lo <= TOL and lo < 0.0 < hi
     assert bisection_count(0.1, TOL) == 10
-    assert ch["evaluations"] == len(calls) <= 7
+    assert ch["evaluations"] == len(calls) <= 6
     assert ch["estimate_method"] == "path-offset-interpolation"
-    assert abs(ch["estimate"]) < 1e-6
+    assert abs(ch["estimate"]) < 0.1 * TOL       # far inside the bracket

@@ -11,6 +11,9 @@ References
 ----------
 .. [1] R. P. Brent, *Algorithms for Minimization without Derivatives*,
    Prentice-Hall (1973), chapter 4 [from memory].
+.. [2] M. Dowell and P. Jarratt, "A modified regula falsi method for
+   computing the root of an equation", BIT 11, 168 (1971)
+   :DOI:`10.1007/BF01934364` [from memory].
 """
 
 from __future__ import annotations
@@ -116,8 +119,8 @@ def fit_crossing(samples, *, lo: float, hi: float) -> CrossingFit | None:
 
 def propose_crossing(lo: float, hi: float, samples, *, tol: float, n: int = 1,
                      evaluations: int = 0, initial_width: float | None = None,
-                     previous_delta: float | None = None,
-                     surprised: bool = False) -> Proposal:
+                     previous_delta: float | None = None, surprised: bool = False,
+                     stale: str | None = None, stale_rounds: int = 0) -> Proposal:
     """Safeguarded proposal from a sign-changing indicator (a conflict).
 
     Parameters
@@ -125,8 +128,17 @@ def propose_crossing(lo: float, hi: float, samples, *, tol: float, n: int = 1,
     lo, hi : float
         Bracket, lo < hi.
     samples : sequence of SignedSample
-    tol, n, evaluations, initial_width, previous_delta, surprised
+    tol, n, evaluations, initial_width, previous_delta
         As for :func:`propose_fold`.
+    surprised : bool
+        Accepted for symmetry with :func:`propose_fold` and ignored: a frame
+        on the unexpected side still carries the two-sided indicator, so
+        the fit improves anyway; the Illinois step handles a fit that keeps
+        falling short.
+    stale : {'lo', 'hi'} or None
+        The bracket end kept through the last `stale_rounds` rounds (every
+        new frame fell on the other side).
+    stale_rounds : int
 
     Returns
     -------
@@ -142,20 +154,21 @@ def propose_crossing(lo: float, hi: float, samples, *, tol: float, n: int = 1,
     each frame sharpening the interpolation on its side.  The safeguards of
     :func:`propose_fold` apply (bisection on a failed fit, an estimate
     outside the bracket, a model no better than a bisection, a
-    non-halving ``delta``, a surprise, or a spent budget).
+    non-halving ``delta`` or a spent budget).
     """
     width = hi - lo
     w0 = initial_width if initial_width else width
     if width <= 0:
         raise ValueError("empty bracket")
-    if surprised:
-        return propose_bisection(lo, hi, n, reason="the last offset step was contradicted")
     if evaluations >= SLACK * max(bisection_count(w0, tol), 1):
         return propose_bisection(lo, hi, n, reason="offset steps used their budget")
     fit = fit_crossing(samples, lo=lo, hi=hi)
     if fit is None:
         return propose_bisection(lo, hi, n, reason="no sign-changing path offset across the "
                                                    "bracket")
+    margin = min(0.01 * width, 0.1 * tol)
+    if stale in ("lo", "hi") and stale_rounds >= 2 and n == 1:
+        return _illinois(lo, hi, samples, stale, stale_rounds, margin, fit)
     est = fit.estimate
     if not lo < est < hi:
         return propose_bisection(lo, hi, n, reason="the interpolated zero lies outside")
@@ -168,7 +181,6 @@ def propose_crossing(lo: float, hi: float, samples, *, tol: float, n: int = 1,
             and delta > 0.5 * previous_delta:
         return Proposal(bisection_points(lo, hi, n), BISECTION,
                         "the offset model's uncertainty did not halve")
-    margin = min(0.01 * width, 0.1 * tol)
     if n == 1:
         toward_hi = (est - lo) < (hi - est)
         x = est + delta if toward_hi else est - delta
@@ -185,5 +197,20 @@ def propose_crossing(lo: float, hi: float, samples, *, tol: float, n: int = 1,
     pairs = [(v, e) for v, e in pairs if lo < v < hi]
     if not pairs:
         return propose_bisection(lo, hi, n, reason="the model step falls on a bracket end")
+    expected = tuple(e if i in (0, len(pairs) - 1) else None for i, (_, e) in enumerate(pairs))
     return Proposal(tuple(v for v, _ in pairs), CROSSING, "interpolated path offset", None,
-                    tuple(e for _, e in pairs), delta, fit)
+                    expected, delta, fit)
+
+
+def _illinois(lo, hi, samples, stale, rounds, margin, fit) -> Proposal:
+    """Secant step with the kept end's indicator halved per extra round (Illinois)."""
+    a = next(s for s in samples if s.value == lo)
+    b = next(s for s in samples if s.value == hi)
+    scale = 0.5 ** (rounds - 1)
+    ga, gb = (a.g * scale, b.g) if stale == "lo" else (a.g, b.g * scale)
+    x = lo - ga * (hi - lo) / (gb - ga)
+    x = round(min(max(x, lo + margin), hi - margin), DECIMALS)
+    if not lo < x < hi:
+        return propose_bisection(lo, hi, 1, reason="the Illinois step falls on a bracket end")
+    return Proposal((x,), CROSSING, f"Illinois step (the {stale} end kept {rounds} rounds)",
+                    None, (None,), None, fit)

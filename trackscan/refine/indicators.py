@@ -222,7 +222,7 @@ def _atom_position(frame, number):
 
 
 def _switch_geometry(frame, spec: ConflictSpec):
-    """(path toward the switching end, c, e) in one frame, or None."""
+    """(path toward the switching end, c, e, c's eigenvalues) in one frame, or None."""
     cps = frame.get("critical_points") or []
     b = next((cp for cp in cps if cp.get("track") == spec.track), None)
     x, y = _atom_position(frame, spec.old), _atom_position(frame, spec.new)
@@ -248,83 +248,78 @@ def _switch_geometry(frame, spec: ConflictSpec):
     i = int(np.argmin(np.linalg.norm(pts - pb, axis=1)))
     # walk from the bond CP towards the polyline end nearer the intervening point
     tail = pts[i:] if np.linalg.norm(pts[-1] - pc) < np.linalg.norm(pts[0] - pc) else pts[i::-1]
-    return tail, pc, e
+    return tail, pc, e, tuple(float(x) for x in c["eigenvalues"])
 
 
-def _in_plane(points, pc, e):
-    d = points - pc
-    h = d @ e
-    return h, np.linalg.norm(d - h[:, None] * e, axis=1)
+def _closest_point(points, target):
+    """Point of the polyline `points` closest to `target` (segments projected)."""
+    a, b = points[:-1], points[1:]
+    d = b - a
+    dd = np.maximum(np.einsum("ij,ij->i", d, d), 1e-300)
+    t = np.clip(np.einsum("ij,ij->i", target - a, d) / dd, 0.0, 1.0)
+    p = a + t[:, None] * d
+    j = int(np.argmin(np.linalg.norm(p - target, axis=1)))
+    return p[j]
 
 
-def path_offset(frame, spec: ConflictSpec, radius: float):
-    """Signed offset of the switching path from the intervening bond CP's surface.
+def path_offset(frame, spec: ConflictSpec):
+    """Signed offset of the switching path from the intervening bond CP.
 
     Parameters
     ----------
     frame : dict
         A tracked frame with bond path polylines.
     spec : ConflictSpec
-    radius : float, bohr
-        In-plane distance from the intervening point at which the offset is
-        read.
 
     Returns
     -------
     float or None
-        ``(p - c) . e`` at the first point ``p`` of the path (walking from
-        its bond CP towards the switching end) whose distance from ``c``
-        within the plane normal to ``e`` falls to `radius`; ``c`` is the
-        bond CP linking the old and new partners, ``e`` its bond direction
-        oriented from the old partner to the new.  None when the frame lacks
-        a piece or the path never comes that close.
+        ``G = sign(h) |h|^(1/p)`` with ``h = (q - c) . e``, where ``q`` is
+        the point of the switching path (from its bond CP towards the
+        switching end) closest to ``c``, ``c`` the bond CP linking the old
+        and new partners, ``e`` its bond direction oriented from the old
+        partner to the new, and ``p = |lambda_2| / (|lambda_2| + lambda_3)``
+        from ``c``'s eigenvalues.  None when the frame lacks a piece.
 
     Notes
     -----
     At a conflict the path runs into ``c`` (a saddle connection); on either
     side it passes ``c`` on the old or the new partner's side of ``c``'s
-    interatomic surface, which near ``c`` is the plane normal to ``e``
-    (METHODS.md section 2: the signed offset changes sign, so ordinary root
-    bracketing applies).  Read at a fixed distance from ``c`` the offset
-    depends smoothly, to first order linearly, on the coordinate; the
-    closest approach to ``c`` would not (it scales as a power set by the
-    eigenvalue ratio at ``c``).
+    interatomic surface (METHODS.md section 2: the signed offset changes
+    sign).  In the linearised ascent flow at ``c`` a path entering with
+    offset ``y0`` along ``e`` (growth rate ``lambda_3``) and approaching
+    in the surface along the softest negative direction (decay rate
+    ``|lambda_2|``) passes ``c`` closest at an offset proportional to
+    ``y0^p``; ``y0`` is to first order linear in the coordinate, so ``G``
+    is too, and ordinary bracketing with interpolation applies.  Read at the
+    closest approach, the sign agrees with the end the path reaches; read
+    farther out it can be biased by the curvature of the surface.
     """
     geo = _switch_geometry(frame, spec)
     if geo is None:
         return None
-    tail, pc, e = geo
-    h, rho = _in_plane(tail, pc, e)
-    for j in range(1, len(tail)):
-        if rho[j - 1] >= radius > rho[j]:
-            f = (rho[j - 1] - radius) / (rho[j - 1] - rho[j])
-            return float(h[j - 1] + f * (h[j] - h[j - 1]))
-    return None
+    tail, pc, e, ev = geo
+    if len(tail) < 2 or len(ev) != 3 or not (ev[1] < 0 < ev[2]):
+        return None
+    q = _closest_point(tail, pc)
+    h = float(np.dot(q - pc, e))
+    p = abs(ev[1]) / (abs(ev[1]) + ev[2])
+    return math.copysign(abs(h) ** (1.0 / p), h)
 
 
 def conflict_samples(frames, spec: ConflictSpec, *, per_side: int = 3) -> list:
-    """Signed offsets ``(value, g)`` of frames next to the bracket, both sides.
+    """Signed offsets ``(value, G)`` of frames next to the bracket, both sides.
 
-    The reading radius is half the in-plane distance of the switching bond
-    CP from the intervening point, the smaller of the two bracket frames'.
+    See :func:`path_offset`; up to `per_side` consecutive frames on each
+    side, nearest first.
     """
     from trackscan.refine.crossing import SignedSample
 
-    radii = []
-    for k in spec.between:
-        if not 0 <= k < len(frames):
-            return []
-        geo = _switch_geometry(frames[k], spec)
-        if geo is None:
-            return []
-        tail, pc, e = geo
-        radii.append(_in_plane(tail[:1], pc, e)[1][0])
-    radius = 0.5 * min(radii)
     out = []
     for start, step in ((spec.between[0], -1), (spec.between[1], +1)):
         k, n = start, 0
         while 0 <= k < len(frames) and n < per_side:
-            g = path_offset(frames[k], spec, radius)
+            g = path_offset(frames[k], spec)
             if g is None:
                 break
             out.append(SignedSample(float(frames[k]["value"]), g))

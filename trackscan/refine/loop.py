@@ -72,6 +72,8 @@ class ChangeContext:
         Refinement frames inside `base`.
     last : list of dict
         Refine records of the latest round inside `base`.
+    rounds : list of list of dict
+        All refine records inside `base`, grouped by round (oldest first).
     """
 
     change: dict
@@ -79,6 +81,7 @@ class ChangeContext:
     base: tuple
     evaluations: int
     last: list
+    rounds: list = field(default_factory=list)
 
 
 @dataclass
@@ -133,13 +136,32 @@ def change_context(frames, change) -> ChangeContext:
     b_lo = below[-1] if below else lo
     b_hi = above[0] if above else hi
     inside = [f for f in frames if _is_refined(f) and b_lo < float(f["value"]) < b_hi]
-    last = []
-    if inside:
-        r = max(int(f[REFINE_KEY].get("round", 0)) for f in inside)
-        last = [dict(f[REFINE_KEY], value=float(f["value"])) for f in inside
-                if int(f[REFINE_KEY].get("round", 0)) == r]
+    groups: dict = {}
+    for f in inside:
+        groups.setdefault(int(f[REFINE_KEY].get("round", 0)), []).append(
+            dict(f[REFINE_KEY], value=float(f["value"])))
+    rounds = [sorted(groups[r], key=lambda rec: rec["value"]) for r in sorted(groups)]
+    last = rounds[-1] if rounds else []
     base = (b_lo, b_hi) if v0 <= v1 else (b_hi, b_lo)
-    return ChangeContext(change, hi - lo, base, len(inside), last)
+    return ChangeContext(change, hi - lo, base, len(inside), last, rounds)
+
+
+def _stale(ctx: ChangeContext):
+    """The bracket end every recent round left in place, and for how many rounds."""
+    v0, v1 = (float(x) for x in ctx.change["bracket"])
+    lo, hi = min(v0, v1), max(v0, v1)
+    side, count = None, 0
+    for recs in reversed(ctx.rounds):
+        if all(r["value"] <= lo for r in recs):
+            s = "hi"
+        elif all(r["value"] >= hi for r in recs):
+            s = "lo"
+        else:
+            break
+        if side not in (None, s):
+            break
+        side, count = s, count + 1
+    return side, count
 
 
 def _surprised(ctx: ChangeContext, side) -> bool:
@@ -187,8 +209,9 @@ def propose_for_change(tracked_frames, ctx: ChangeContext, *, tolerance: float, 
                   previous_delta=_previous_delta(ctx))
     spec = conflict_spec(ch)
     if spec is not None:
-        return propose_crossing(lo, hi, conflict_samples(tracked_frames, spec),
-                                surprised=_surprised(ctx, None), **common)
+        stale, rounds = _stale(ctx)
+        return propose_crossing(lo, hi, conflict_samples(tracked_frames, spec), stale=stale,
+                                stale_rounds=rounds, **common)
     side = fold_side(ch)
     if side is None:
         why = ("tracking recorded no fold pair" if is_fold(ch) else
@@ -246,8 +269,10 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
             meta = {"round": int(round_number), "method": prop.method,
                     "bracket": [float(x) for x in ctx.change["bracket"]]}
             if prop.method in MODEL_METHODS:
-                meta["delta"] = float(prop.delta)
-                meta["expected"] = e
+                if prop.delta is not None:
+                    meta["delta"] = float(prop.delta)
+                if e is not None:
+                    meta["expected"] = e
                 fit = prop.fit if prop.fit is not None else prop.crossing
                 meta["model_estimate"] = float(fit.estimate)
             probes.append(Probe(float(v), meta))

@@ -402,7 +402,9 @@ def propose_fold(present: float, absent: float, samples, *, tol: float, n: int =
                         for t in ts}.items())
         pairs = [(v, e) for v, e in pairs if lo < v < hi]
         values = tuple(v for v, _ in pairs)
-        expected = tuple(e for _, e in pairs)
+        # only the outermost points carry an expectation (the model's error
+        # is up to delta; the inner ones may fall either side)
+        expected = tuple(e if i in (0, len(pairs) - 1) else None for i, (_, e) in enumerate(pairs))
     if not values:
         return Proposal(bisection_points(lo, hi, n), BISECTION,
                         "the model step falls on a bracket end", fit)

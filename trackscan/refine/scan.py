@@ -212,12 +212,12 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
         return new
 
     result = refine_frames(frames, evaluate=evaluate, tolerance=tolerance,
-                           max_evaluations=max_evaluations, jobs=jobs if backend.jobs == 1
-                           else max(jobs, backend.jobs), track=_track(manifest),
+                           max_evaluations=max_evaluations, jobs=jobs, track=_track(manifest),
                            gtol=manifest.analysis.gtol, progress=progress)
     final = load_manifest(manifest.path)
-    scan = analyze_scan(final, out_dir=out_dir, jobs=1 if backend.jobs > 1 else jobs,
-                        progress=progress)
+    # every frame is in the cache by now (with an out_dir): this only tracks and assembles
+    scan = analyze_scan(final, out_dir=out_dir, jobs=jobs if isinstance(backend, LocalBackend)
+                        else 1, progress=progress)
     meta = _recorded_meta(final)
     for f in scan["frames"]:
         m = meta.get(os.path.normcase(os.path.abspath(final.base_dir / f["source"])))
