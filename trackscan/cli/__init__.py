@@ -58,16 +58,32 @@ def _build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+class _StderrHandler(logging.StreamHandler):
+    """Log to whatever ``sys.stderr`` is at the time of each message."""
+
+    def __init__(self):
+        super().__init__(sys.stderr)
+
+    @property
+    def stream(self):
+        return sys.stderr
+
+    @stream.setter
+    def stream(self, value):  # StreamHandler assigns it in __init__
+        pass
+
+
 def _setup_logging(verbose: int, quiet: bool) -> None:
     level = logging.ERROR if quiet else (logging.DEBUG if verbose > 1 else
                                          logging.INFO if verbose == 1 else logging.WARNING)
     root = logging.getLogger("trackscan")
-    root.handlers.clear()
-    handler = logging.StreamHandler(sys.stderr)
+    for h in list(root.handlers):
+        if isinstance(h, _StderrHandler):
+            root.removeHandler(h)
+    handler = _StderrHandler()
     handler.setFormatter(logging.Formatter("%(levelname)s: %(message)s"))
     root.addHandler(handler)
     root.setLevel(level)
-    root.propagate = False
 
 
 def main(argv=None) -> int:
