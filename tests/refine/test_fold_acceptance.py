@@ -90,3 +90,33 @@ def test_two_values_per_round(folds):
     assert hi - lo <= TOL and lo < folds[1] < hi
     assert result.rounds <= 4
     assert ch["evaluations"] == len(calls) <= 8
+
+
+def test_budget_and_descending_scan(folds):
+    # the same fold, frames listed in descending order, budget of two frames
+    calls = []
+    frames = [analytic_frame(s, calls) for s in (3.0, 2.9, 2.8, 2.7)]
+    calls.clear()
+    result = refine_frames(frames, evaluate=lambda ps: [analytic_frame(p.value, calls)
+                                                        for p in ps],
+                           tolerance=TOL, max_evaluations=2)
+    assert not result.converged and "budget" in result.message
+    assert len(calls) == result.evaluations == 2
+    assert result.tracked["direction"] == "descending"
+    (ch,) = result.tracked["changes"]
+    a, b = ch["bracket"]
+    assert a > b and b < folds[1] < a                  # scan order: old structure first
+    # two fold steps probe the side where the pair exists: that end is
+    # already within W/100 of s* (the other end moves at the last step)
+    assert folds[1] - b < 0.01 * W
+    # more budget later: the loop continues from the frames made so far
+    more = refine_frames(result.frames, evaluate=lambda ps: [analytic_frame(p.value, calls)
+                                                             for p in ps], tolerance=TOL)
+    assert more.converged and more.total_evaluations == len(calls) <= 5
+
+
+def test_bad_tolerance_is_input_error():
+    from trackscan.errors import InputError
+
+    with pytest.raises(InputError, match="tolerance"):
+        refine_frames([], evaluate=None, tolerance=1e-9)

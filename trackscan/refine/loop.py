@@ -27,7 +27,7 @@ from trackscan.refine.proposals import (
 )
 
 __all__ = ["Probe", "RefineResult", "ChangeContext", "change_context", "plan_round",
-           "refine_frames", "REFINE_KEY", "MIN_TOLERANCE"]
+           "refine_frames", "check_options", "REFINE_KEY", "MIN_TOLERANCE"]
 
 logger = logging.getLogger(__name__)
 
@@ -282,6 +282,18 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
     return probes
 
 
+def check_options(*, tolerance, max_evaluations=None, jobs=1) -> None:
+    """Raise InputError for a tolerance, budget or job count refine cannot use."""
+    if isinstance(tolerance, bool) or not isinstance(tolerance, (int, float)) \
+            or not math.isfinite(tolerance) or tolerance < MIN_TOLERANCE:
+        raise InputError(f"--tolerance must be a number >= {MIN_TOLERANCE:g} (proposed values "
+                         f"are rounded to {DECIMALS} decimals), got {tolerance!r}")
+    if max_evaluations is not None and max_evaluations < 0:
+        raise InputError(f"--max-evaluations must be >= 0, got {max_evaluations}")
+    if jobs < 1:
+        raise InputError(f"--jobs must be at least 1, got {jobs}")
+
+
 def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | None = None,
                   jobs: int = 1, track=None, gtol: float = DEFAULT_GTOL,
                   progress=None) -> RefineResult:
@@ -321,17 +333,18 @@ def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | 
     InputError
         Bad tolerance, budget or jobs.
     """
-    if not (isinstance(tolerance, (int, float)) and math.isfinite(tolerance)) \
-            or tolerance < MIN_TOLERANCE:
-        raise InputError(f"--tolerance must be a number >= {MIN_TOLERANCE:g} (proposed values "
-                         f"are rounded to {DECIMALS} decimals), got {tolerance!r}")
-    if max_evaluations is not None and max_evaluations < 0:
-        raise InputError(f"--max-evaluations must be >= 0, got {max_evaluations}")
-    if jobs < 1:
-        raise InputError(f"--jobs must be at least 1, got {jobs}")
+    check_options(tolerance=tolerance, max_evaluations=max_evaluations, jobs=jobs)
     if track is None:
         from trackscan.tracking import track_scan as track
     frames = list(frames)
+    values = [float(f["value"]) for f in frames]
+    descending = len(values) > 1 and all(a > b for a, b in zip(values, values[1:]))
+    inner_track = track
+
+    def track(fr):
+        # keep the scan's own direction when frames are appended
+        return inner_track(sorted(fr, key=lambda f: float(f["value"]), reverse=descending))
+
     done_before = sum(1 for f in frames if _is_refined(f))
     rounds_before = max((int(f[REFINE_KEY].get("round", 0)) for f in frames if _is_refined(f)),
                         default=0)

@@ -28,7 +28,7 @@ from trackscan.io.atomic import write_text_atomic
 from trackscan.io.manifest import RECORD_NAME, generated_frame_name, read_frame_record
 from trackscan.refine.backends import LocalBackend
 from trackscan.refine.estimates import annotate_changes
-from trackscan.refine.loop import REFINE_KEY, plan_round, refine_frames
+from trackscan.refine.loop import REFINE_KEY, check_options, plan_round, refine_frames
 from trackscan.refine.proposals import DECIMALS
 
 __all__ = ["record_generated_frame", "refine_manifest", "suggest_values", "load_frames",
@@ -175,6 +175,7 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
     from trackscan.generators import make_generator
     from trackscan.io.manifest import load_manifest
 
+    check_options(tolerance=tolerance, max_evaluations=max_evaluations, jobs=jobs)
     if generator is None:
         if getattr(manifest.generator, "source", "none") == "none":
             raise InputError("refine needs a generator section to compute new frames; "
@@ -257,13 +258,12 @@ def suggest_values(manifest, *, tolerance: float, jobs: int = 1, out_dir=None,
     from trackscan.generators import make_drive
     from trackscan.io.xyz import write_xyz
 
+    check_options(tolerance=tolerance, jobs=jobs)
     out_dir = Path(out_dir) if out_dir is not None else Path("reports") / manifest.name
     sugg_dir = out_dir / "suggested"
     frames = load_frames(manifest, backend=backend, cache_dir=out_dir / ".cache",
                          suggested_dir=sugg_dir, progress=progress)
     tracked = _track(manifest)(frames)
-    if tolerance <= 0:
-        raise InputError(f"--tolerance must be positive, got {tolerance!r}")
     rounds = [int(f[REFINE_KEY].get("round", 0)) for f in frames if REFINE_KEY in f]
     probes = plan_round(tracked, tolerance=tolerance, jobs=jobs,
                         round_number=max(rounds, default=0) + 1, gtol=manifest.analysis.gtol)
