@@ -15,7 +15,8 @@ distributed = pytest.importorskip("dask.distributed")
 
 from trackscan.cli import main  # noqa: E402
 
-_spec = importlib.util.spec_from_file_location("fold_model", Path(__file__).with_name("fold_model.py"))
+_spec = importlib.util.spec_from_file_location(
+    "fold_model", Path(__file__).with_name("fold_model.py"))
 fm = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(fm)
 

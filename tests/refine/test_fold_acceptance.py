@@ -13,10 +13,8 @@ with at most 5 new frames each; bisection needs ceil(log2(1000)) = 10.
 """
 
 import importlib.util
-import math
 from pathlib import Path
 
-import numpy as np
 import pytest
 
 from trackscan.promolecule import promolecule_grid
@@ -24,7 +22,8 @@ from trackscan.refine import annotate_changes, bisection_count, refine_frames
 from trackscan.settings import AnalysisSettings
 from trackscan.topology import analyze_frame
 
-_spec = importlib.util.spec_from_file_location("fold_model", Path(__file__).with_name("fold_model.py"))
+_spec = importlib.util.spec_from_file_location(
+    "fold_model", Path(__file__).with_name("fold_model.py"))
 fm = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(fm)
 

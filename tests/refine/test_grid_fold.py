@@ -18,11 +18,10 @@ import importlib.util
 import json
 from pathlib import Path
 
-import pytest
-
 from trackscan.cli import main
 
-_spec = importlib.util.spec_from_file_location("fold_model", Path(__file__).with_name("fold_model.py"))
+_spec = importlib.util.spec_from_file_location(
+    "fold_model", Path(__file__).with_name("fold_model.py"))
 fm = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(fm)
 

@@ -8,14 +8,12 @@ are identities (inverse interpolation reproduces s* for an exactly linear
 d^2) and counts against the bisection count log2(W / tol).
 """
 
-import math
-
 import numpy as np
 import pytest
 
 from trackscan.refine.proposals import (
     BISECTION, FOLD, FoldSample, allocate_slots, bisection_count, bisection_points, fit_fold,
-    propose_bisection, propose_fold,
+    propose_fold,
 )
 
 

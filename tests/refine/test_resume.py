@@ -10,14 +10,13 @@ uninterrupted refine makes.
 import importlib.util
 from pathlib import Path
 
-import pytest
-
 from trackscan.errors import GeneratorError
 from trackscan.generators import make_generator
 from trackscan.io.manifest import load_manifest, read_frame_record
 from trackscan.refine.scan import refine_manifest
 
-_spec = importlib.util.spec_from_file_location("fold_model", Path(__file__).with_name("fold_model.py"))
+_spec = importlib.util.spec_from_file_location(
+    "fold_model", Path(__file__).with_name("fold_model.py"))
 fm = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(fm)
 

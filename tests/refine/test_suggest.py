@@ -20,7 +20,8 @@ from trackscan.promolecule import promolecule_grid
 
 ase_io = pytest.importorskip("ase.io")
 
-_spec = importlib.util.spec_from_file_location("fold_model", Path(__file__).with_name("fold_model.py"))
+_spec = importlib.util.spec_from_file_location(
+    "fold_model", Path(__file__).with_name("fold_model.py"))
 fm = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(fm)
 

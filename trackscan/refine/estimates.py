@@ -62,8 +62,9 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None,
         width = hi - lo
         mid = 0.5 * (v0 + v1)
         ch["evaluations"] = ctx.evaluations
-        estimate, method, model_error = mid, ("bisection-midpoint" if ctx.evaluations
-                                              else ch.get("estimate_method", "bracket-midpoint")), None
+        method = ("bisection-midpoint" if ctx.evaluations
+                  else ch.get("estimate_method", "bracket-midpoint"))
+        estimate, model_error = mid, None
         info = {"initial_bracket": [float(x) for x in ctx.base]}
         spec = conflict_spec(ch)
         side = fold_side(ch)

@@ -23,7 +23,7 @@ from trackscan.refine.indicators import (
     DEFAULT_GTOL, conflict_samples, conflict_spec, fold_samples, fold_side, is_fold,
 )
 from trackscan.refine.proposals import (
-    BISECTION, DECIMALS, FOLD, allocate_slots, bisection_count, propose_bisection, propose_fold,
+    DECIMALS, FOLD, allocate_slots, propose_bisection, propose_fold,
 )
 
 __all__ = ["Probe", "RefineResult", "ChangeContext", "change_context", "plan_round",
