@@ -145,3 +145,14 @@ def test_failed_write_leaves_old_file(tmp_path):
             raise RuntimeError("interrupted")
     assert p.read_text() == "old"
     assert [f.name for f in tmp_path.iterdir()] == ["keep.cube"]
+
+
+def test_atomic_output_has_ordinary_permissions(tmp_path):
+    import os
+    from trackscan.io.atomic import write_text_atomic
+    mask = os.umask(0o022)
+    try:
+        write_text_atomic(tmp_path / "a.txt", "x")
+    finally:
+        os.umask(mask)
+    assert (tmp_path / "a.txt").stat().st_mode & 0o777 == 0o644

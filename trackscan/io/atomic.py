@@ -44,11 +44,19 @@ def atomic_open(path, mode: str = "w", *, encoding: str | None = "utf-8"):
             yield fh
             fh.flush()
             os.fsync(fh.fileno())
+        os.chmod(tmp, _default_mode())
         os.replace(tmp, path)
     except BaseException:
         with contextlib.suppress(FileNotFoundError):
             os.unlink(tmp)
         raise
+
+
+def _default_mode() -> int:
+    """Permissions an ordinary new file would get (0o666 less the umask)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
 
 
 def write_text_atomic(path, text: str) -> None:
