@@ -16,7 +16,9 @@ import pytest
 
 from trackscan.cli import main
 from trackscan.io.cube import write_cube
+from trackscan.io.manifest import load_manifest
 from trackscan.promolecule import promolecule_grid
+from trackscan.refine.scan import load_frames
 
 ase_io = pytest.importorskip("ase.io")
 
@@ -52,6 +54,28 @@ def test_suggest_writes_geometries_at_the_proposed_values(tmp_path, capsys):
             == pytest.approx(fm.H1H2, abs=1e-6)
     listed = json.loads((out / "suggested" / "suggested.json").read_text())["suggestions"]
     assert sorted(s["value"] for s in listed) == sorted(float(v) for v, _, _ in rows)
+    # the researcher computes the two densities and adds the cubes: the next
+    # suggestions lie in the narrowed bracket, which still holds s*
+    s_star = fm.solve_fold(fm.DEATH_GUESS)
+    for value, _, _ in rows:
+        name = f"cubes/new_{value}.cube"
+        write_cube(folder / name, promolecule_grid([1, 1, 1], fm.positions(float(value)),
+                                                   spacing=0.2, margin=1.6))
+        frames.append((name, float(value)))
+    fm.write_scan(folder, None, frames=frames, density=False)
+    assert main(["refine", str(manifest), "--suggest", "--tolerance", "1e-3", "--jobs", "2",
+                 "--out", str(out)]) == 0
+    again = re.findall(r"^\s+(\d+\.\d+) bohr", capsys.readouterr().out, re.M)
+    done = sorted(float(v) for v, _, _ in rows)
+    lo = max([v for v in done if v < s_star], default=2.8)
+    hi = min([v for v in done if v > s_star], default=2.9)
+    assert again and all(lo < float(v) < hi for v in again)
+    assert hi - lo < 0.05
+    # and the added frames are known as the suggestions they answer
+    frames_now = load_frames(load_manifest(manifest), cache_dir=out / ".cache",
+                             suggested_dir=out / "suggested")
+    answered = sorted(f["value"] for f in frames_now if "refine" in f)
+    assert answered == done
     # without --suggest a geometry-only manifest cannot compute frames: one-line error
     assert main(["refine", str(manifest), "--tolerance", "1e-3", "--out", str(out)]) == 2
     assert "--suggest" in capsys.readouterr().err
