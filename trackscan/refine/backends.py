@@ -56,7 +56,11 @@ class LocalBackend:
         return f"{self.jobs} local process(es)"
 
     def generate(self, tasks, *, generator, config=None, coordinate=None):
-        """Yield ``(index, GeneratedFrame)`` as each call finishes.
+        """Yield ``(index, GeneratedFrame or None, exception or None)`` as calls finish.
+
+        A failed call does not stop the others: every call that succeeds is
+        yielded (so the caller can record it) and the failures come with
+        their exception.
 
         Parameters
         ----------
@@ -68,13 +72,18 @@ class LocalBackend:
         """
         if self.jobs == 1 or len(tasks) <= 1 or config is None:
             for i, (v, p, w) in enumerate(tasks):
-                yield i, generate_one(generator, v, p, w)
+                try:
+                    yield i, generate_one(generator, v, p, w), None
+                except Exception as exc:          # recorded by the caller, then re-raised
+                    yield i, None, exc
+                    return
             return
         with ProcessPoolExecutor(max_workers=min(self.jobs, len(tasks))) as pool:
             futures = {pool.submit(_build_and_generate, config, coordinate, v, p, w): i
                        for i, (v, p, w) in enumerate(tasks)}
             for fut in as_completed(futures):
-                yield futures[fut], fut.result()
+                exc = fut.exception()
+                yield futures[fut], (None if exc else fut.result()), exc
 
     def analyse(self, files, settings, *, periodic: bool, cache_dir, progress=None) -> list:
         """Frame dicts of cube files (:func:`trackscan.analysis.analyse_frames`)."""
@@ -122,7 +131,7 @@ class DaskBackend:
         return f"dask scheduler {self.client.scheduler.address} ({self.jobs} workers)"
 
     def generate(self, tasks, *, generator, config=None, coordinate=None):
-        """Yield ``(index, GeneratedFrame)`` as each task finishes."""
+        """Yield ``(index, GeneratedFrame or None, exception or None)`` as tasks finish."""
         from dask.distributed import as_completed as dask_completed
 
         futures = {}
@@ -134,7 +143,8 @@ class DaskBackend:
                 fut = self.client.submit(generate_one, generator, v, p, w, pure=False)
             futures[fut] = i
         for fut in dask_completed(list(futures)):
-            yield futures[fut], fut.result()
+            exc = fut.exception()
+            yield futures[fut], (None if exc else fut.result()), exc
 
     def analyse(self, files, settings, *, periodic: bool, cache_dir, progress=None) -> list:
         """Frame dicts of cube files, analysed on the workers, cached here."""

@@ -195,13 +195,20 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
                  for p in probes]
         folder.mkdir(parents=True, exist_ok=True)
         made = [None] * len(probes)
-        for i, out in backend.generate(tasks, generator=generator, config=config,
-                                       coordinate=manifest.coordinate):
+        errors = []
+        for i, out, exc in backend.generate(tasks, generator=generator, config=config,
+                                            coordinate=manifest.coordinate):
+            if exc is not None:
+                errors.append(exc)
+                continue
             made[i] = out
             record_generated_frame(manifest, {"file": Path(tasks[i][1]).name,
                                               "value": probes[i].value, "energy": out.energy,
                                               REFINE_KEY: probes[i].meta})
             logger.info("new frame at %g: %s", probes[i].value, tasks[i][1])
+        if errors:
+            # the frames that did finish are recorded: a rerun will not repeat them
+            raise errors[0]
         new = backend.analyse([t[1] for t in tasks], manifest.analysis,
                               periodic=manifest.periodic, cache_dir=cache_dir)
         for p, t, out, f in zip(probes, tasks, made, new):
