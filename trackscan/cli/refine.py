@@ -53,6 +53,8 @@ def _fmt(x) -> str:
 def change_lines(scan: dict) -> list:
     """Printed table of the refined changes."""
     unit = scan["scan"]["coordinate"].get("unit", "")
+    if not scan["changes"]:
+        return ["no structural change inside the scan"]
     rows = [("#", "bracket", "estimate", "method", "new frames", "bisection")]
     for n, ch in enumerate(scan["changes"], start=1):
         a, b = ch["bracket"]
