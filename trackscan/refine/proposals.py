@@ -54,9 +54,9 @@ FOLD = "fold-extrapolation"
 #: generated frame names, ``frame_p1.234567.cube``).
 DECIMALS = 6
 
-#: Fold steps stay allowed while the evaluations spent on a change are fewer
+#: Model steps stay allowed while the evaluations spent on a change are fewer
 #: than SLACK times the plain bisection count of its initial bracket; beyond
-#: that the change is bisected.
+#: that the change is bisected (worst case: SLACK + 1 times bisection).
 SLACK = 2
 
 #: Share of the tolerance given to each side of the final straddle (two
@@ -339,7 +339,8 @@ def propose_fold(present: float, absent: float, samples, *, tol: float, n: int =
     (the model would not beat a bisection), when ``delta`` did not halve
     since the previous fold step, after a surprise, or once the change has
     used :data:`SLACK` times the bisection count.  The worst case is thus
-    bounded by a small multiple of bisection, while on a clean fold the
+    bounded by ``SLACK + 1`` times the bisection count (model steps that
+    never shrink the bracket, then bisection), while on a clean fold the
     uncertainty shrinks superlinearly (the secant-like order of the inverse
     interpolation).
 
