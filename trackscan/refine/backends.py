@@ -122,7 +122,7 @@ class DaskBackend:
         else:
             try:
                 self.client, self._own = Client(address, timeout="20s"), True
-            except (OSError, TimeoutError) as exc:
+            except (OSError, TimeoutError, ValueError) as exc:
                 raise InputError(f"cannot reach the dask scheduler at {address} ({exc})") \
                     from None
         self.jobs = max(1, len(self.client.scheduler_info().get("workers", {})))
