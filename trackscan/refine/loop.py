@@ -374,6 +374,10 @@ def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | 
             raise ValueError(f"evaluate returned {len(new)} frames for {len(probes)} probes")
         for p, f in zip(probes, new):
             f.setdefault(REFINE_KEY, dict(p.meta))
+            if f.get("complete") is False:
+                logger.warning("the new frame at %g fails Poincare-Hopf: its critical points "
+                               "may be incomplete, and the bracket decided from it with them",
+                               p.value)
         result.frames.extend(new)
         result.evaluations += len(new)
         result.total_evaluations += len(new)
