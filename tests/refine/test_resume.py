@@ -8,7 +8,11 @@ uninterrupted refine makes.
 """
 
 import importlib.util
+import json
+import sys
 from pathlib import Path
+
+from trackscan.cli import main
 
 from trackscan.errors import GeneratorError
 from trackscan.generators import make_generator
@@ -67,3 +71,46 @@ def test_interrupted_refine_resumes_without_repeating(tmp_path):
     assert first[:2] + second == whole                    # same frames as without the crash
     assert [c["bracket"] for c in scan2["changes"]] == [c["bracket"] for c in scan["changes"]]
     assert scan2["scan"]["refine"]["evaluations"] == len(whole)
+
+
+_SCRIPT = """
+import os, sys
+from trackscan.io.cube import write_cube
+from trackscan.io.xyz import read_xyz
+from trackscan.promolecule import promolecule_grid
+value, xyz, cube = sys.argv[1], sys.argv[2], sys.argv[3]
+with open("calls.txt", "a") as fh:
+    fh.write(value + "\\n")
+if float(value) not in (2.7, 2.8, 2.9, 3.0):     # a refinement frame
+    try:
+        os.rename("fail-once", "failed")          # atomic: only one call fails
+        sys.exit("simulated crash")
+    except FileNotFoundError:
+        pass
+frame = read_xyz(xyz)[0]
+write_cube(cube, promolecule_grid(frame.numbers, frame.positions, spacing=0.25, margin=1.5))
+"""
+
+
+def test_parallel_round_with_a_failed_call(tmp_path):
+    # two values per round in worker processes; one external calculation of
+    # the first round crashes: the other is recorded, and the rerun does not
+    # compute it again
+    folder = tmp_path / "scan"
+    manifest = fm.write_scan(folder, [2.7, 2.8, 2.9, 3.0], density=False)
+    (folder / "gen.py").write_text(_SCRIPT)
+    with open(manifest, "a") as fh:
+        fh.write(f"  command: [{json.dumps(sys.executable)}, gen.py, '{{value}}', '{{xyz}}', "
+                 "'{cube}']\n")
+    (folder / "fail-once").write_text("")
+    args = ["refine", str(manifest), "--tolerance", "1e-3", "--jobs", "2",
+            "--out", str(tmp_path / "out")]
+    assert main(args) == 1                                   # the crash is reported
+    first = (folder / "calls.txt").read_text().split()[4:]     # after the scan's own frames
+    assert len(first) == 2
+    recorded = [r["value"] for r in read_frame_record(folder / "frames")]
+    assert len(recorded) == 1 and f"{recorded[0]!r}" in first
+    assert main(args) == 0
+    calls = (folder / "calls.txt").read_text().split()[6:]
+    assert f"{recorded[0]!r}" not in calls                   # the finished one is not redone
+    assert len(calls) == len(set(calls))
