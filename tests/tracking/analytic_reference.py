@@ -74,7 +74,7 @@ def _newton(field, x, *, maxiter=60, cap=0.3, gtol=1e-10):
     return x, rho, g, h
 
 
-def critical_points(field, positions, *, lattice=0.45, pad=2.0, rho_min=1e-4,
+def critical_points(field, positions, *, lattice=0.6, pad=2.0, rho_min=1e-4,
                     nuclear_radius=0.0):
     """Non-nuclear critical points of the analytic density.
 
@@ -107,7 +107,7 @@ def critical_points(field, positions, *, lattice=0.45, pad=2.0, rho_min=1e-4,
     return found
 
 
-def _ascend(field, x, targets, *, h=0.03, capture=0.1, max_steps=1500):
+def _ascend(field, x, targets, *, h=0.05, capture=0.1, max_steps=1000):
     """RK4 ascent of many paths at once; index of the target each reaches (or -1)."""
     x = np.array(x, dtype=float)
     out = np.full(len(x), -1)
@@ -171,3 +171,37 @@ def molecular_graph(field, positions, *, eps=1e-3, attach=0.4):
     counts = {k: sum(cp["kind"] == k for cp in cps) for k in ("non_nuclear", "bond", "ring", "cage")}
     ph = len(pos) + counts["non_nuclear"] - counts["bond"] + counts["ring"] - counts["cage"]
     return {"bonds": sorted(bonds, key=str), "counts": counts, "poincare_hopf": ph, "cps": cps}
+
+
+def expected_changes(values, graphs):
+    """Changes derived from the reference graphs alone (ascending values)."""
+    out = []
+    for k in range(len(values) - 1):
+        a, b = graphs[k], graphs[k + 1]
+        key = lambda g: (g["bonds"], g["counts"]["ring"], g["counts"]["cage"],
+                         g["counts"]["non_nuclear"])
+        if key(a) == key(b):
+            continue
+        broken = sorted(set(a["bonds"]) - set(b["bonds"]))
+        formed = sorted(set(b["bonds"]) - set(a["bonds"]))
+        out.append({"between": [k, k + 1], "bracket": [values[k], values[k + 1]],
+                    "broken": broken, "formed": formed,
+                    "rings": b["counts"]["ring"] - a["counts"]["ring"]})
+    return out
+
+
+def found_changes(scan):
+    """The same summary of the changes in a scan.json dict."""
+    out = []
+    for c in scan["changes"]:
+        broken = sorted(tuple(e["atoms"]) for e in c["events"] if e["kind"] == "bond_broken")
+        formed = sorted(tuple(e["atoms"]) for e in c["events"] if e["kind"] == "bond_formed")
+        for e in c["events"]:
+            if e["kind"] == "bond_switched":
+                broken.append(tuple(e["atoms_before"]))
+                formed.append(tuple(e["atoms_after"]))
+        rings = sum(e["kind"] == "ring_formed" for e in c["events"]) - \
+            sum(e["kind"] == "ring_lost" for e in c["events"])
+        out.append({"between": c["between"], "bracket": c["bracket"], "broken": sorted(broken),
+                    "formed": sorted(formed), "rings": rings})
+    return out

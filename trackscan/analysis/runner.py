@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import dataclasses
 import logging
+import multiprocessing
 import os
 from concurrent.futures import ProcessPoolExecutor, as_completed
 
@@ -19,9 +20,20 @@ from trackscan.analysis.cache import cache_key, file_digest, load_entry, store_e
 from trackscan.errors import InputError
 from trackscan.progress import report
 
-__all__ = ["analyse_frames", "analyse_cube", "printed_digits"]
+__all__ = ["analyse_frames", "analyse_cube", "printed_digits", "worker_context"]
 
 logger = logging.getLogger(__name__)
+
+
+def worker_context():
+    """Start method of worker processes: ``forkserver`` where available, else ``spawn``.
+
+    Plain ``fork`` copies the parent's threads' locks (BLAS, OpenMP, logging)
+    in whatever state they are, and a worker can hang on one for ever; the
+    fork server forks from a clean single-threaded process instead.
+    """
+    methods = multiprocessing.get_all_start_methods()
+    return multiprocessing.get_context("forkserver" if "forkserver" in methods else "spawn")
 
 
 def printed_digits(values, *, sample: int = 4096) -> int:
@@ -147,7 +159,8 @@ def analyse_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None,
         for i in todo:
             finish(i, analyse_cube(files[i], sdict, periodic))
     else:
-        with ProcessPoolExecutor(max_workers=min(jobs, len(todo))) as pool:
+        with ProcessPoolExecutor(max_workers=min(jobs, len(todo)),
+                                 mp_context=worker_context()) as pool:
             futures = {pool.submit(analyse_cube, files[i], sdict, periodic): i for i in todo}
             for fut in as_completed(futures):
                 finish(futures[fut], fut.result())

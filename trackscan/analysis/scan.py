@@ -8,7 +8,7 @@ from concurrent.futures import ProcessPoolExecutor, as_completed
 from pathlib import Path
 
 from trackscan import __version__
-from trackscan.analysis.runner import analyse_frames
+from trackscan.analysis.runner import analyse_frames, worker_context
 from trackscan.analysis.scanjson import SCHEMA
 from trackscan.errors import InputError
 from trackscan.progress import report
@@ -62,7 +62,8 @@ def ensure_frames(manifest, *, jobs=1, progress=None) -> str:
         logger.info("generating %d frame(s) with %s", total, gen.describe())
         report(progress, "generate frames", 0, total)
     if jobs > 1 and total > 1:
-        with ProcessPoolExecutor(max_workers=min(jobs, total)) as pool:
+        with ProcessPoolExecutor(max_workers=min(jobs, total),
+                                 mp_context=worker_context()) as pool:
             futures = [pool.submit(_generate, gen, e.value, e.file) for e in missing]
             for n, fut in enumerate(as_completed(futures), start=1):
                 value = fut.result()
