@@ -326,3 +326,57 @@ def test_periodic_cp_wrapping_across_the_cell_face_keeps_its_track():
     # raw distance 3.96 bohr across the face, far beyond the gate: only the
     # minimum image keeps one track
     assert {f["critical_points"][2]["track"] for f in r["frames"]} == {"B1"}
+
+
+def _nna_scan():
+    """SYNTHETIC: two Li atoms with a non-nuclear attractor between them in
+    frames 0-2 (bond paths Li1-a1 and a1-Li2); the attractor and one bond CP
+    annihilate between frames 2 and 3, leaving one Li1-Li2 bond path."""
+    S.ELEMENTS.setdefault(3, "Li")
+    frames = []
+    for s in range(5):
+        p = np.array([[0.0, 0, 0], [5.0 - 0.1 * s, 0, 0]])
+        mid = 0.5 * (p[0] + p[1])
+        if s < 3:
+            d = 0.5 * np.sqrt(2.5 - s)
+            nna = {"id": "a1", "kind": "non_nuclear", "rank": 3, "signature": -3,
+                   "position_bohr": [float(x) for x in mid + [d, 0, 0]], "rho": 0.011,
+                   "laplacian": -0.01, "eigenvalues": [-0.01, -0.005, -0.001],
+                   "ellipticity": None, "atoms": []}
+            cps = [nna, S.bond_cp("b1", mid - [0.5, 0, 0], (1, "a1"), rho=0.010),
+                   S.bond_cp("b2", mid + [2 * d, 0, 0], ("a1", 2), rho=0.0105)]
+        else:
+            cps = [S.bond_cp("b1", mid - [0.3, 0, 0], (1, 2), rho=0.010)]
+        frames.append(S.frame(float(s), (3, 3), p, cps))
+    return frames
+
+
+def test_attractor_fold_with_its_path_rerouted_is_a_fold():
+    r = track_scan(_nna_scan())
+    (ch,) = r["changes"]
+    assert ch["between"] == [2, 3] and ch["mechanism"] == "fold"
+    kinds = sorted(e["kind"] for e in ch["events"])
+    assert kinds == ["attractor_lost", "bond_broken", "bond_switched"]
+    (sw,) = [e for e in ch["events"] if e["kind"] == "bond_switched"]
+    assert sw["atoms_before"] == [1, "A1"] and sw["atoms_after"] == [1, 2] and sw["by_fold"]
+    assert describe_change(ch, ["Li", "Li"]) == (
+        "bond path Li2–NNA A1 broken; bond path Li1–NNA A1 switched to Li1–Li2; "
+        "non-nuclear attractor lost")
+
+
+def test_fold_and_switch_in_one_step_is_mixed():
+    frames = S.ring_opening_scan()
+    conflict = S.conflict_scan()
+    # add a fourth atom H4 far from the ring, its path switching from C1 to C2
+    for k, (f, g) in enumerate(zip(frames, conflict)):
+        h = np.array(g["atoms"][2]["position_bohr"]) + [0.0, -8.0, 0.0]
+        f["atoms"].append({"number": 4, "element": "H", "Z": 1, "position_bohr": list(h)})
+        f["critical_points"].append({**S.bond_cp("b9", [0, 0, 0], ()), "id": "n4",
+                                     "kind": "nuclear", "position_bohr": list(h), "atoms": [4]})
+        to = 1 if k < 2.5 else 2
+        q = np.array(f["atoms"][to - 1]["position_bohr"])
+        f["critical_points"].append(S.bond_cp("b9", 0.5 * (q + h), (to, 4), rho=0.02))
+        f["bond_paths"].append({"cp": "b9", "atoms": [to, 4]})
+    (ch,) = track_scan(frames)["changes"]
+    assert ch["mechanism"] == "mixed"
+    assert sorted(e["kind"] for e in ch["events"]) == ["bond_broken", "bond_switched", "ring_lost"]

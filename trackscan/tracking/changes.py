@@ -61,6 +61,8 @@ class StepEvents:
         Why the step's births/deaths are judged noise (empty if they are not).
     open_paths : bool
         A bond path of either frame that changed did not reach an attractor.
+    induced : list of int
+        Indices of switches caused by a fold of a non-nuclear attractor.
     """
 
     k: int
@@ -72,6 +74,12 @@ class StepEvents:
     notes: list = field(default_factory=list)
     noise: list = field(default_factory=list)
     open_paths: bool = False
+    induced: list = field(default_factory=list)
+
+    @property
+    def conflicts(self) -> list:
+        """Switches that are not consequences of this step's folds."""
+        return [sw for i, sw in enumerate(self.switches) if i not in self.induced]
 
     @property
     def has_events(self) -> bool:
@@ -145,6 +153,12 @@ def analyse_step(k, a, b, ta, tb, match, *, settings) -> StepEvents:
                 break
     born = [cp for cp in born if cp.id not in used_b]
     out.lost, out.born = lost, born
+    # A path end that moves off a non-nuclear attractor lost in a fold of this
+    # step (or onto one born in it) follows from that fold: not a conflict.
+    gone = {ta[cp.id] for pair in out.folds_lost for cp in pair[:2] if cp.kind == "non_nuclear"}
+    new = {tb[cp.id] for pair in out.folds_born for cp in pair[:2] if cp.kind == "non_nuclear"}
+    out.induced = [i for i, sw in enumerate(out.switches)
+                   if set(sw[2]) & gone or set(sw[3]) & new]
     return out
 
 
@@ -173,9 +187,12 @@ def _step_event_list(st, a, b, ta, tb):
         events.append(_event(cp, a, ta, True))
     for cp in st.born:
         events.append(_event(cp, b, tb, False))
-    for cpa, cpb, ea, eb, _ in st.switches:
-        events.append({"kind": "bond_switched", "cp": cpb.id, "cp_before": cpa.id,
-                       "track": tb[cpb.id], "atoms_before": list(ea), "atoms_after": list(eb)})
+    for i, (cpa, cpb, ea, eb, _) in enumerate(st.switches):
+        ev = {"kind": "bond_switched", "cp": cpb.id, "cp_before": cpa.id,
+              "track": tb[cpb.id], "atoms_before": list(ea), "atoms_after": list(eb)}
+        if i in st.induced:
+            ev["by_fold"] = True
+        events.append(ev)
     events.sort(key=lambda e: (_EVENT_ORDER.index(e["kind"]), e["track"]))
     return events
 
@@ -302,7 +319,7 @@ def find_changes(views, tracks, matches, aligned, keys, graphs, structures, *, s
             names = ", ".join(f"{cp.kind} CP {tracks[k][cp.id]} lost" for cp in st.lost)
             names2 = ", ".join(f"{cp.kind} CP {tracks[k + 1][cp.id]} born" for cp in st.born)
             notes.append("without a fold partner: " + "; ".join(x for x in (names, names2) if x))
-        elif n_fold and st.switches:
+        elif n_fold and st.conflicts:
             candidate = "mixed"
         elif n_fold:
             candidate = "fold"
