@@ -170,3 +170,23 @@ def test_bad_input_exits_2(tmp_path, scan_dir, capsys):
     assert main(["analyze", str(tmp_path / "bad.yaml"), "--out", str(tmp_path / "o2")]) == 2
     err = capsys.readouterr().err
     assert err.count("trackscan: error:") == 3
+
+
+def test_printed_precision_is_read_from_the_cube_values(tmp_path):
+    # write_cube prints %.{digits}E: digits + 1 significant digits
+    from trackscan.analysis import printed_digits
+    from trackscan.io.cube import read_cube
+
+    grid = promolecule_grid([6, 8], [[0, 0, 0], [0, 0, 2.1]], spacing=0.4, margin=2.0)
+    for digits in (3, 5):
+        path = tmp_path / f"d{digits}.cube"
+        write_cube(path, grid, digits=digits)
+        assert printed_digits(read_cube(path).values) == digits + 1
+    assert printed_digits(grid.values) == 17
+
+
+def test_scan_json_text_is_canonical():
+    from trackscan.analysis import dumps_scan
+
+    text = dumps_scan({"b": [float("nan"), -0.0, np.float64(0.1)], "a": (1, np.int64(2))})
+    assert text == '{\n "a": [\n  1,\n  2\n ],\n "b": [\n  null,\n  0.0,\n  0.1\n ]\n}\n'
