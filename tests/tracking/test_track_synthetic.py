@@ -157,9 +157,11 @@ def test_poincare_hopf_failure_is_unresolved():
     frames = S.ring_opening_scan()
     frames[3]["complete"] = False
     frames[3]["poincare_hopf"]["holds"] = False
-    (ch,) = track_scan(frames)["changes"]
+    r = track_scan(frames)
+    (ch,) = r["changes"]
     assert ch["mechanism"] == "unresolved" and ch["mechanism_candidate"] == "fold"
     assert "frame 3 fails Poincaré–Hopf" in ch["note"]
+    assert r["incomplete_frames"] == [3]
 
 
 def test_resolution_floor_depends_on_each_frames_grid():

@@ -134,4 +134,5 @@ def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None
         "early_warnings": tracked["early_warnings"],
         "bond_tracks": tracked["bond_tracks"],
         "structures": tracked["structures"],
+        "incomplete_frames": tracked["incomplete_frames"],
     }

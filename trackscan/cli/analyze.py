@@ -59,6 +59,11 @@ def summary_lines(scan: dict) -> list:
             if ch.get("structure_type_changed") is False:
                 lines.append(f"note {n}: the structure type is unchanged; only which atoms "
                              "are linked differs")
+    bad = scan.get("incomplete_frames") or []
+    if bad:
+        lines.append("warning: frame(s) " + ", ".join(str(k) for k in bad) +
+                     " fail Poincaré–Hopf (critical points may be missing); changes next to "
+                     "them are unresolved")
     for w in scan.get("early_warnings", []):
         lines.append(f"early warning: {w['message']}")
     return lines

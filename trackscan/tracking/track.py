@@ -53,7 +53,8 @@ def track_scan(frames, *, settings=None, unit=""):
         contract plus ``structures``, ``structure_type_changed`` and
         ``resolution``; ``early_warnings``; ``bond_tracks`` (indicator series
         per bond track); ``structures`` (one entry per structure number);
-        ``direction`` and ``tracking`` (the settings used).
+        ``direction``, ``tracking`` (the settings used) and
+        ``incomplete_frames`` (indices of frames failing Poincaré–Hopf).
 
     Raises
     ------
@@ -131,6 +132,7 @@ def track_scan(frames, *, settings=None, unit=""):
         "structures": _structure_table(keys, structures),
         "direction": direction,
         "tracking": settings.to_dict(),
+        "incomplete_frames": [k for k, v in enumerate(views) if not v.complete],
     }
 
 
