@@ -382,3 +382,31 @@ def test_fold_and_switch_in_one_step_is_mixed():
     (ch,) = track_scan(frames)["changes"]
     assert ch["mechanism"] == "mixed"
     assert sorted(e["kind"] for e in ch["events"]) == ["bond_broken", "bond_switched", "ring_lost"]
+
+
+def test_cp_ids_and_order_within_frames_do_not_matter():
+    frames = S.ring_opening_scan()
+    ref = track_scan(frames)
+    renamed = []
+    for k, f in enumerate(frames):
+        g = copy.deepcopy(f)
+        ren = {cp["id"]: f"x{k}_{i}" for i, cp in enumerate(g["critical_points"])
+               if cp["kind"] != "nuclear"}
+        for cp in g["critical_points"]:
+            cp["id"] = ren.get(cp["id"], cp["id"])
+        for p in g["bond_paths"]:
+            p["cp"] = ren[p["cp"]]
+        g["critical_points"] = g["critical_points"][:3] + g["critical_points"][3:][::-1]
+        renamed.append(g)
+    got = track_scan(renamed)
+
+    def essence(r):
+        return [(c["between"], c["mechanism"],
+                 sorted((e["kind"], tuple(e.get("atoms", ()))) for e in c["events"]))
+                for c in r["changes"]]
+
+    assert essence(got) == essence(ref)
+    # the annihilating bond CP keeps one track through its renamed ids
+    b = [{cp["track"] for cp in f["critical_points"] if cp["kind"] == "bond" and
+          cp["atoms"] == [1, 3]} for f in got["frames"][:3]]
+    assert len(set.union(*b)) == 1
