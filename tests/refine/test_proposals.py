@@ -129,3 +129,25 @@ def test_two_points_per_round():
     d2 = lambda s: 4.0 * (s_star - s) + 0.6 * (s_star - s) ** 2
     evals = _simulate(s_star, d2, [0.8, 0.9, 1.0, 1.1], 1e-4, n=2)
     assert evals <= 8        # at most four rounds of two
+
+
+@pytest.mark.parametrize("kind", ["offset", "steep", "noisy", "quartic"])
+def test_worst_case_is_bisection_plus_allowance(kind):
+    # Misleading indicators: the d^2 model points at the wrong place, so the
+    # existence bits keep contradicting it; the count must still stay within
+    # the bisection count plus ALLOWANCE (keeps_guarantee's invariant).
+    from trackscan.refine.proposals import ALLOWANCE
+    rng = np.random.default_rng(11)
+    worst = 0
+    for frac in np.linspace(0.03, 0.97, 25):
+        s_star = 1.0 + 0.1 * frac + 1.1e-7
+        if kind == "offset":       # predicts a fold 0.03 beyond the real one
+            d2 = lambda s, s0=s_star: 4.0 * (s0 + 0.03 - s)
+        elif kind == "steep":      # strongly curved, root far from s*
+            d2 = lambda s, s0=s_star: (s0 - s) ** 3 + 0.05 * (1.2 - s)
+        elif kind == "quartic":    # d^2 ~ (s* - s)^4: the fold model creeps (25 frames unguarded)
+            d2 = lambda s, s0=s_star: (s0 - s) ** 4
+        else:
+            d2 = lambda s, s0=s_star: 4.0 * (s0 - s) + 0.05 * rng.standard_normal()
+        worst = max(worst, _simulate(s_star, d2, [0.8, 0.9, 1.0, 1.1, 1.2], 1e-4))
+    assert worst <= bisection_count(0.1, 1e-4) + ALLOWANCE

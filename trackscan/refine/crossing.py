@@ -22,7 +22,7 @@ import math
 from dataclasses import dataclass
 
 from trackscan.refine.proposals import (
-    BISECTION, DECIMALS, SLACK, STRADDLE, Proposal, _neville_at_zero, bisection_count,
+    BISECTION, DECIMALS, STRADDLE, Proposal, _neville_at_zero, keeps_guarantee,
     bisection_points, propose_bisection,
 )
 
@@ -160,8 +160,9 @@ def propose_crossing(lo: float, hi: float, samples, *, tol: float, n: int = 1,
     w0 = initial_width if initial_width else width
     if width <= 0:
         raise ValueError("empty bracket")
-    if evaluations >= SLACK * max(bisection_count(w0, tol), 1):
-        return propose_bisection(lo, hi, n, reason="offset steps used their budget")
+    if not keeps_guarantee(lo, hi, tol=tol, n=n, evaluations=evaluations, initial_width=w0):
+        return propose_bisection(lo, hi, n, reason="offset steps used their allowance over "
+                                                   "bisection")
     fit = fit_crossing(samples, lo=lo, hi=hi)
     if fit is None:
         return propose_bisection(lo, hi, n, reason="no sign-changing path offset across the "
@@ -198,8 +199,17 @@ def propose_crossing(lo: float, hi: float, samples, *, tol: float, n: int = 1,
     if not pairs:
         return propose_bisection(lo, hi, n, reason="the model step falls on a bracket end")
     expected = tuple(e if i in (0, len(pairs) - 1) else None for i, (_, e) in enumerate(pairs))
-    return Proposal(tuple(v for v, _ in pairs), CROSSING, "interpolated path offset", None,
+    step = Proposal(tuple(v for v, _ in pairs), CROSSING, "interpolated path offset", None,
                     expected, delta, fit)
+    return _guarded(step, lo, hi, tol, n, evaluations, w0)
+
+
+def _guarded(step: Proposal, lo, hi, tol, n, evaluations, w0) -> Proposal:
+    """`step`, or bisection when it could end worse than bisection (keeps_guarantee)."""
+    if step.method == BISECTION or keeps_guarantee(lo, hi, tol=tol, n=n, evaluations=evaluations,
+                                                   initial_width=w0):
+        return step
+    return propose_bisection(lo, hi, n, reason="an offset step could end worse than bisection")
 
 
 def _illinois(lo, hi, samples, stale, rounds, margin, fit) -> Proposal:

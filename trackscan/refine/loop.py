@@ -171,7 +171,7 @@ def _surprised(ctx: ChangeContext, side) -> bool:
     None for value-based expectations (``below``/``above`` the change).
     """
     v0, v1 = (float(x) for x in ctx.change["bracket"])
-    lo, hi = min(v0, v1), max(v0, v1)
+    lo = min(v0, v1)
     for rec in ctx.last:
         if rec.get("method") not in MODEL_METHODS or not rec.get("expected"):
             continue

@@ -44,8 +44,8 @@ import math
 from dataclasses import dataclass, field
 
 __all__ = ["FoldSample", "FoldFit", "Proposal", "bisection_count", "bisection_points",
-           "fit_fold", "propose_bisection", "propose_fold", "allocate_slots",
-           "BISECTION", "FOLD", "DECIMALS", "SLACK"]
+           "fit_fold", "keeps_guarantee", "allowance_left", "section_rounds", "propose_bisection", "propose_fold", "allocate_slots",
+           "BISECTION", "FOLD", "DECIMALS", "ALLOWANCE"]
 
 BISECTION = "bisection"
 FOLD = "fold-extrapolation"
@@ -54,10 +54,12 @@ FOLD = "fold-extrapolation"
 #: generated frame names, ``frame_p1.234567.cube``).
 DECIMALS = 6
 
-#: Model steps stay allowed while the evaluations spent on a change are fewer
-#: than SLACK times the plain bisection count of its initial bracket; beyond
-#: that the change is bisected (worst case: SLACK + 1 times bisection).
-SLACK = 2
+#: Worst-case allowance of the model steps, in rounds beyond plain
+#: (n+1)-section of the initial bracket (see :func:`keeps_guarantee`).  No
+#: off-centre probe can match bisection in the worst case (its wider side
+#: is more than half the bracket), so a fast scheme needs some allowance;
+#: this one bounds every refinement by the bisection count plus ALLOWANCE.
+ALLOWANCE = 3
 
 #: Share of the tolerance given to each side of the final straddle (two
 #: probes at ``estimate -/+ STRADDLE * tol`` bound a bracket ``2 * STRADDLE *
@@ -170,6 +172,64 @@ def bisection_count(width: float, tol: float) -> int:
     if width <= tol:
         return 0
     return int(math.ceil(math.log2(width / tol) - 1e-12))
+
+
+def section_rounds(width: float, tol: float, n: int = 1) -> int:
+    """Rounds of (n+1)-section that take a bracket of `width` to at most `tol`.
+
+    Examples
+    --------
+    >>> section_rounds(1.0, 1e-3, 1), section_rounds(1.0, 1e-3, 3)
+    (10, 5)
+    """
+    if width <= tol:
+        return 0
+    return int(math.ceil(math.log(width / tol) / math.log(n + 1) - 1e-12))
+
+
+def keeps_guarantee(lo: float, hi: float, *, tol: float, n: int = 1,
+                    evaluations: int = 0, initial_width: float | None = None) -> bool:
+    """True when a model step now still leaves bisection's worst case within reach.
+
+    With ``I = rounds spent + (n+1)-section rounds still needed from the
+    current bracket``, a bisection round keeps ``I`` constant and any other
+    round raises it by at most one (the bracket never grows).  Allowing a
+    model round only while ``I < budget``, with ``budget`` the (n+1)-section
+    count of the initial bracket plus :data:`ALLOWANCE`, keeps ``I <=
+    budget`` after every round, and at the end ``I`` is the number of
+    rounds used: no refinement ever needs more than bisection plus
+    ALLOWANCE rounds, whatever the model predicts.
+
+    Parameters
+    ----------
+    lo, hi : float
+        The current bracket.
+    tol : float
+    n : int
+        Values per round.
+    evaluations : int
+        New frames already spent on this change.
+    initial_width : float, optional
+        Width of the bracket before refinement (default: the current one).
+
+    References
+    ----------
+    .. [1] R. P. Brent, *Algorithms for Minimization without Derivatives*,
+       Prentice-Hall (1973), ch. 4: safeguarded steps whose worst case stays
+       within a fixed multiple of bisection.
+    """
+    return allowance_left(lo, hi, tol=tol, n=n, evaluations=evaluations,
+                          initial_width=initial_width) > 0
+
+
+def allowance_left(lo: float, hi: float, *, tol: float, n: int = 1, evaluations: int = 0,
+                   initial_width: float | None = None) -> int:
+    """Model rounds still allowed now: ``budget - I`` of :func:`keeps_guarantee`."""
+    width = abs(hi - lo)
+    w0 = initial_width if initial_width else width
+    spent = int(math.ceil(evaluations / max(n, 1)))
+    budget = section_rounds(w0, tol, n) + ALLOWANCE
+    return budget - spent - section_rounds(width, tol, n)
 
 
 def _inside(values, lo, hi):
@@ -330,17 +390,17 @@ def propose_fold(present: float, absent: float, samples, *, tol: float, n: int =
     section 7, scheme (B), with the error estimate of :func:`fit_fold`
     standing in for the change of successive estimates).  With one value per
     round the probe goes to ``t_est + delta`` (expected: absent) when that
-    alone closes the bracket below `tol`; otherwise to ``t_est - delta``
+    alone closes the bracket below `tol` or when it is the last model step
+    the allowance permits; otherwise to ``t_est - delta``
     (expected: pair present) while that lies inside the bracket -- each such
     frame sharpens the fit -- and then to ``t_est + delta``.  With n >= 2
     values, n points are spread evenly over ``[t_est - delta, t_est +
     delta]``.  Bisection is used instead when the fit fails, when its root
     is outside the bracket, when ``2 delta`` is not below half the bracket
     (the model would not beat a bisection), when ``delta`` did not halve
-    since the previous fold step, after a surprise, or once the change has
-    used :data:`SLACK` times the bisection count.  The worst case is thus
-    bounded by ``SLACK + 1`` times the bisection count (model steps that
-    never shrink the bracket, then bisection), while on a clean fold the
+    since the previous fold step, after a surprise, or whenever the step could
+    end worse than bisection (:func:`keeps_guarantee`: the worst case is the
+    bisection count plus :data:`ALLOWANCE` rounds), while on a clean fold the
     uncertainty shrinks superlinearly (the secant-like order of the inverse
     interpolation).
 
@@ -357,8 +417,10 @@ def propose_fold(present: float, absent: float, samples, *, tol: float, n: int =
         raise ValueError("empty bracket")
     if surprised:
         return propose_bisection(lo, hi, n, reason="the last fold step was contradicted")
-    if evaluations >= SLACK * max(bisection_count(w0, tol), 1):
-        return propose_bisection(lo, hi, n, reason="fold steps used their budget")
+    left = allowance_left(lo, hi, tol=tol, n=n, evaluations=evaluations, initial_width=w0)
+    if left <= 0:
+        return propose_bisection(lo, hi, n, reason="fold steps used their allowance over "
+                                                   "bisection")
     fit = fit_fold(samples, absent=absent)
     if fit is None:
         return propose_bisection(lo, hi, n, reason="fewer than two frames with the pair "
@@ -385,8 +447,9 @@ def propose_fold(present: float, absent: float, samples, *, tol: float, n: int =
 
     if n == 1:
         closes = t_est + delta < width - margin
-        if closes and t_est + delta < tol:
-            t, side = t_est + delta, "absent"        # this probe finishes the bracket
+        if closes and (t_est + delta < tol or left == 1):
+            # this probe finishes the bracket, or is the last model step allowed
+            t, side = t_est + delta, "absent"
         elif t_est - delta > margin:
             t, side = t_est - delta, "present"
         elif closes:
