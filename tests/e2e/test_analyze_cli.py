@@ -190,3 +190,19 @@ def test_scan_json_text_is_canonical():
 
     text = dumps_scan({"b": [float("nan"), -0.0, np.float64(0.1)], "a": (1, np.int64(2))})
     assert text == '{\n "a": [\n  1,\n  2\n ],\n "b": [\n  null,\n  0.0,\n  0.1\n ]\n}\n'
+
+
+def test_broken_frame_with_parallel_workers_exits_2(scan_dir, tmp_path, capsys):
+    frames = yaml.safe_load((scan_dir / "listed.yaml").read_text())
+    bad = tmp_path / "broken.cube"
+    lines = Path(frames["frames"][0]["file"]).read_text().splitlines()
+    # a bad number deep in the values: the manifest loader (header only)
+    # accepts the file, the worker's cube reader refuses it
+    mid = len(lines) // 2
+    bad.write_text("\n".join(lines[:mid] + ["1.0 nonsense 2.0"] + lines[mid + 1:]) + "\n")
+    frames["frames"][0]["file"] = str(bad)
+    (tmp_path / "m.yaml").write_text(yaml.safe_dump(frames))
+    code = main(["analyze", str(tmp_path / "m.yaml"), "--out", str(tmp_path / "o"), "--jobs", "2"])
+    err = capsys.readouterr().err
+    assert code == 2 and "broken.cube" in err and f":{mid + 1}:" in err
+    assert not (tmp_path / "o" / "scan.json").exists()

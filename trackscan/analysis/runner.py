@@ -163,6 +163,11 @@ def analyse_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None,
         with ProcessPoolExecutor(max_workers=min(jobs, len(todo)),
                                  mp_context=worker_context()) as pool:
             futures = {pool.submit(analyse_cube, files[i], sdict, periodic): i for i in todo}
-            for fut in as_completed(futures):
-                finish(futures[fut], fut.result())
+            try:
+                for fut in as_completed(futures):
+                    finish(futures[fut], fut.result())
+            except BaseException:
+                # a bad frame (or ^C) stops the run: do not start the others
+                pool.shutdown(wait=True, cancel_futures=True)
+                raise
     return results

@@ -65,9 +65,13 @@ def ensure_frames(manifest, *, jobs=1, progress=None) -> str:
         with ProcessPoolExecutor(max_workers=min(jobs, total),
                                  mp_context=worker_context()) as pool:
             futures = [pool.submit(_generate, gen, e.value, e.file) for e in missing]
-            for n, fut in enumerate(as_completed(futures), start=1):
-                value = fut.result()
-                report(progress, "generate frames", n, total, f"value {value:g}")
+            try:
+                for n, fut in enumerate(as_completed(futures), start=1):
+                    value = fut.result()
+                    report(progress, "generate frames", n, total, f"value {value:g}")
+            except BaseException:
+                pool.shutdown(wait=True, cancel_futures=True)
+                raise
     else:
         for n, e in enumerate(missing, start=1):
             _generate(gen, e.value, e.file)
