@@ -22,7 +22,8 @@ import itertools
 
 import numpy as np
 
-from trackscan.promolecule import Promolecule, atom_terms
+from trackscan.promolecule import _R_FLOOR, Promolecule, atom_terms
+from trackscan.promolecule import _radial as _atom_radial
 
 __all__ = ["LocalizedPromolecule", "R_INNER", "R_OUTER"]
 
@@ -115,13 +116,13 @@ class LocalizedPromolecule:
         self._atoms = [Promolecule([z], [p]) for z, p in zip(numbers, positions)]
         self._table_r = np.linspace(0.0, self.r_out, int(np.ceil(self.r_out / _TABLE_STEP)) + 1)
         self._tables = {}
+        self._terms = {}
         self.max_value = sum(sum(c for c, m, a in atom_terms(z) if m == 0) for z in numbers)
 
     def _table(self, z):
         """Switched radial density of element z on the fine table of radii."""
         if z not in self._tables:
-            atom = Promolecule([z], [[0.0, 0.0, 0.0]])
-            self._tables[z] = self._radial(atom, self._table_r, 0)[0]
+            self._tables[z] = self._radial_z(z, self._table_r, 0.0, 0)[0]
         return self._tables[z]
 
     def __len__(self):
@@ -140,33 +141,79 @@ class LocalizedPromolecule:
         return self.evaluate(points, 2)[2]
 
     def evaluate(self, points, order: int = 2) -> tuple:
-        """Value and derivatives at points; see :class:`trackscan.field.Field`."""
+        """Value and derivatives at points; see :class:`trackscan.field.Field`.
+
+        All atoms are handled in one pass: the (point, atom) pairs within
+        ``r_out`` are listed atom by atom, the radial functions are computed
+        per element for all its pairs at once, and the contributions are
+        summed per point in atom order (so the sums equal those of a loop
+        over the atoms, bit for bit).  Calls with few points (path steps,
+        Newton iterations) then cost a fixed number of array operations
+        instead of some per atom.
+        """
         pts = np.asarray(points, dtype=np.float64).reshape(-1, 3)
         n = len(pts)
         val = np.zeros(n)
         grad = np.zeros((n, 3)) if order >= 1 else None
         hess = np.zeros((n, 3, 3)) if order >= 2 else None
-        for atom, pos in zip(self._atoms, self.positions):
-            d = pts - pos
-            r2 = np.einsum("ij,ij->i", d, d)
-            sel = np.nonzero(r2 < self.r_out * self.r_out)[0]
-            if len(sel) == 0:
-                continue
-            self._add(atom, d[sel], np.sqrt(r2[sel]), sel, order, val, grad, hess)
-        return (val, grad, hess)[: order + 1]
+        if n == 0 or len(self._atoms) == 0:
+            return (val, grad, hess)[: order + 1]
+        # d[a, i] = pts[i] - positions[a]; pairs in atom-major order
+        d = pts[None, :, :] - self.positions[:, None, :]
+        r2 = np.einsum("ij,ij->i", d.reshape(-1, 3), d.reshape(-1, 3)).reshape(d.shape[:2])
+        atom, sel = np.nonzero(r2 < self.r_out * self.r_out)
+        if len(sel) == 0:
+            return (val, grad, hess)[: order + 1]
+        d = d[atom, sel]
+        r = np.sqrt(r2[atom, sel])
+        m = len(sel)
+        f = np.empty(m)
+        d1_over = np.empty(m) if order >= 1 else None
+        d2 = np.empty(m) if order >= 2 else None
+        for z in np.unique(self.numbers[atom]):
+            k = np.nonzero(self.numbers[atom] == z)[0]
+            out = self._radial_z(int(z), r[k], self.positions[atom[k], 0], order)
+            f[k] = out[0]
+            if order >= 1:
+                d1_over[k] = out[2]
+            if order >= 2:
+                d2[k] = out[3]
+        val += np.bincount(sel, weights=f, minlength=n)
+        if order == 0:
+            return (val,)
+        contrib = d1_over[:, None] * d
+        for c in range(3):
+            grad[:, c] += np.bincount(sel, weights=contrib[:, c], minlength=n)
+        if order == 1:
+            return val, grad
+        safe = np.maximum(r, 1e-12)
+        e = d / safe[:, None]
+        ee = e[:, :, None] * e[:, None, :]
+        contrib = (d2[:, None, None] * ee + d1_over[:, None, None] * (np.eye(3) - ee))
+        flat = hess.reshape(n, 9)
+        contrib = contrib.reshape(m, 9)
+        for c in range(9):
+            flat[:, c] += np.bincount(sel, weights=contrib[:, c], minlength=n)
+        return val, grad, hess
 
-    def _radial(self, atom, r, order):
-        """F, F' and F'/r, F'' of the softened, switched atom at distances r."""
+    def _radial_z(self, z, r, x0, order):
+        """F, F' and F'/r, F'' of the softened, switched atom z at distances r.
+
+        The free atom is evaluated at ``(x0 + rs, y, z)`` for an atom at
+        ``(x0, y, z)`` -- the rounding of ``(x0 + rs) - x0`` is kept so the
+        numbers equal those of ``Promolecule([z], [p]).evaluate`` along x --
+        from its radial terms, without building 3 x 3 Hessians.
+        """
         a = self.soften
         rs = np.sqrt(r * r + a * a)
-        pts = np.zeros((len(r), 3))
-        pts[:, 0] = rs
-        out = atom.evaluate(pts + atom.positions[0], order)
-        f = out[0]
+        dx = (rs + x0) - x0
+        rr = np.sqrt(dx * dx)
+        f, _, d1r, d2 = _atom_radial(self._terms_of(z), rr, order)
         s, ds, dds = _switch(r, self.r_in, self.r_out)
         if order == 0:
             return s * f, None, None, None
-        f1 = out[1][:, 0]                                   # f'(rs)
+        near = rr < _R_FLOOR
+        f1 = np.where(near, 0.0, d1r) * dx                  # f'(rs)
         f1_over = f1 / np.maximum(rs, 1e-300)               # f'(rs) / rs
         g1 = f1_over * r                                    # d f(rs(r)) / dr
         big = s * f
@@ -174,23 +221,17 @@ class LocalizedPromolecule:
         d1_over = s * f1_over + np.where(r > 1e-12, ds / np.maximum(r, 1e-300), 0.0) * f
         if order == 1:
             return big, d1, d1_over, None
-        f2 = out[2][:, 0, 0]                                # f''(rs)
+        coef = np.where(near, 0.0, (d2 - d1r) / np.where(near, 1.0, rr * rr))
+        f2 = d1r * 1.0 + coef * dx * dx                     # f''(rs)
         g2 = f2 * (r / rs) ** 2 + f1 * a * a / rs ** 3
         d2 = s * g2 + 2.0 * ds * g1 + dds * f
         return big, d1, d1_over, d2
 
-    def _add(self, atom, d, r, sel, order, val, grad, hess):
-        f, d1, d1_over, d2 = self._radial(atom, r, order)
-        val[sel] += f
-        if order == 0:
-            return
-        grad[sel] += d1_over[:, None] * d
-        if order == 1:
-            return
-        safe = np.maximum(r, 1e-12)
-        e = d / safe[:, None]
-        ee = e[:, :, None] * e[:, None, :]
-        hess[sel] += d2[:, None, None] * ee + d1_over[:, None, None] * (np.eye(3) - ee)
+    def _terms_of(self, z):
+        """Radial terms of the free atom of element z."""
+        if z not in self._terms:
+            self._terms[z] = atom_terms(z)
+        return self._terms[z]
 
     def on_grid(self, origin, axes, shape) -> np.ndarray:
         """Values at every point of a regular grid, touching only the spheres.
@@ -243,6 +284,6 @@ class LocalizedPromolecule:
             f += (t - k) * (table[k + 1] - f)
             near = r < _EXACT_RADIUS
             if np.any(near):
-                f[near] = self._radial(atom, r[near], 0)[0]
+                f[near] = self._radial_z(int(atom.numbers[0]), r[near], pos[0], 0)[0]
             out[lo[0]:hi[0] + 1, lo[1]:hi[1] + 1, lo[2]:hi[2] + 1] += f
         return out
