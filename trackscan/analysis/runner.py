@@ -2,8 +2,14 @@
 
 Each worker loads one cube, analyses it (``trackscan.topology.analyze_frame``)
 and returns the compact frame dict; the grids never travel between
-processes.  Results come back in frame order whatever order the workers
-finish in, so the output does not depend on the number of processes.
+processes, and the parent never reads one (with one job the single frame
+being analysed is the only grid alive).  :func:`iter_frames` yields the frame
+dicts as they finish, keeping only a few tasks in flight, so a scan of any
+length holds at most about ``2 * jobs`` grids (one per busy worker) at a
+time.  :func:`analyse_frames` returns them in frame order whatever order
+the workers finish in, so the output does not depend on the number of
+processes.  With ``dask=`` the analyses run on a dask.distributed scheduler
+(:mod:`trackscan.analysis.distributed`) instead.
 """
 
 from __future__ import annotations
@@ -12,7 +18,7 @@ import dataclasses
 import logging
 import multiprocessing
 import os
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 
 import numpy as np
 
@@ -20,7 +26,8 @@ from trackscan.analysis.cache import cache_key, file_digest, load_entry, store_e
 from trackscan.errors import InputError
 from trackscan.progress import report
 
-__all__ = ["analyse_frames", "analyse_cube", "printed_digits", "worker_context"]
+__all__ = ["analyse_frames", "iter_frames", "analyse_cube", "printed_digits",
+           "worker_context"]
 
 logger = logging.getLogger(__name__)
 
@@ -96,7 +103,7 @@ def analyse_cube(path: str, settings_dict: dict, periodic: bool) -> dict:
 
 
 def analyse_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None,
-                   progress=None) -> list:
+                   progress=None, dask=None) -> list:
     """Frame dicts of cube files, analysed in `jobs` processes, cached.
 
     Parameters
@@ -113,6 +120,9 @@ def analyse_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None,
         cache.
     progress : callable, optional
         Receives :class:`trackscan.progress.ProgressEvent` as frames finish.
+    dask : str or dask.distributed.Client, optional
+        Run the analyses on this dask.distributed scheduler instead of local
+        processes (`jobs` is then ignored).  The workers must see the files.
 
     Returns
     -------
@@ -122,7 +132,30 @@ def analyse_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None,
     Raises
     ------
     InputError
-        A file is missing or unreadable (from the cube reader).
+        A file is missing or unreadable (from the cube reader), or the
+        scheduler cannot be reached.
+    """
+    files = list(files)
+    results = [None] * len(files)
+    for i, frame in iter_frames(files, settings, periodic=periodic, jobs=jobs,
+                                cache_dir=cache_dir, progress=progress, dask=dask):
+        results[i] = frame
+    return results
+
+
+def iter_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None, progress=None,
+                dask=None):
+    """Yield ``(index, frame dict)`` for each cube file as its analysis finishes.
+
+    Cached frames come first, then the others in the order they finish.
+    Only a bounded number of analyses is in flight (two per worker), and
+    nothing is kept here once a frame is yielded, so the memory of a scan
+    does not grow with its length.  Parameters as :func:`analyse_frames`.
+
+    Yields
+    ------
+    (int, dict)
+        Position of the file in `files`, and its frame dict.
     """
     if jobs < 1:
         raise InputError(f"--jobs must be at least 1, got {jobs}")
@@ -131,43 +164,73 @@ def analyse_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None,
         if not os.path.isfile(f):
             raise InputError("frame file does not exist", f)
     sdict = settings.to_dict()
-    results = [None] * len(files)
     keys = [None] * len(files)
     todo = []
+    total = len(files)
+    done = 0
     for i, f in enumerate(files):
         if cache_dir is not None:
             keys[i] = cache_key(file_digest(f), sdict, periodic=periodic)
             hit = load_entry(cache_dir, keys[i])
             if hit is not None:
-                results[i] = hit
+                done += 1
+                yield i, hit
                 continue
         todo.append(i)
-    total = len(files)
-    done = total - len(todo)
-    logger.info("%d of %d frames cached, %d to analyse with %d process(es)", done, total,
-                len(todo), jobs)
+    where = "a dask scheduler" if dask is not None else f"{jobs} process(es)"
+    logger.info("%d of %d frames cached, %d to analyse on %s", done, total, len(todo), where)
     report(progress, "analyse frames", done, total, "cached" if done else "")
-
-    def finish(i, frame):
-        nonlocal done
-        results[i] = frame
+    calls = [(files[i], sdict, periodic) for i in todo]
+    for k, frame in _run(calls, jobs=jobs, dask=dask):
+        i = todo[k]
         if cache_dir is not None:
             store_entry(cache_dir, keys[i], frame)
         done += 1
         report(progress, "analyse frames", done, total, os.path.basename(files[i]))
+        yield i, frame
 
-    if jobs == 1 or len(todo) <= 1:
-        for i in todo:
-            finish(i, analyse_cube(files[i], sdict, periodic))
-    else:
-        with ProcessPoolExecutor(max_workers=min(jobs, len(todo)),
-                                 mp_context=worker_context()) as pool:
-            futures = {pool.submit(analyse_cube, files[i], sdict, periodic): i for i in todo}
-            try:
-                for fut in as_completed(futures):
-                    finish(futures[fut], fut.result())
-            except BaseException:
-                # a bad frame (or ^C) stops the run: do not start the others
-                pool.shutdown(wait=True, cancel_futures=True)
-                raise
-    return results
+
+def _run(calls, *, jobs, dask):
+    """Yield ``(k, analyse_cube(*calls[k]))`` as the analyses finish."""
+    if not calls:
+        return
+    if dask is not None:
+        from trackscan.analysis.distributed import connect, run_as_completed
+
+        client, own = connect(dask)
+        try:
+            yield from run_as_completed(client, analyse_cube, calls)
+        finally:
+            if own:
+                client.close()
+        return
+    if jobs == 1 or len(calls) <= 1:
+        for k, args in enumerate(calls):
+            yield k, analyse_cube(*args)
+        return
+    workers = min(jobs, len(calls))
+    with ProcessPoolExecutor(max_workers=workers, mp_context=worker_context()) as pool:
+        queue = iter(enumerate(calls))
+        pending = {}
+
+        def top_up():
+            while len(pending) < 2 * workers:
+                item = next(queue, None)
+                if item is None:
+                    return
+                pending[pool.submit(analyse_cube, *item[1])] = item[0]
+
+        try:
+            top_up()
+            while pending:
+                finished, _ = wait(pending, return_when=FIRST_COMPLETED)
+                for fut in sorted(finished, key=pending.get):
+                    k = pending.pop(fut)
+                    frame = fut.result()
+                    top_up()
+                    yield k, frame
+        except BaseException:
+            # a bad frame (or ^C, or the caller stopping) ends the run: do not
+            # start the others
+            pool.shutdown(wait=True, cancel_futures=True)
+            raise
