@@ -11,6 +11,7 @@ from trackscan import __version__
 from trackscan.analysis.runner import analyse_frames, worker_context
 from trackscan.analysis.scanjson import SCHEMA
 from trackscan.errors import InputError
+from trackscan.io.manifest import record_generated_frame
 from trackscan.progress import report
 from trackscan.tracking import TrackingSettings, track_scan
 
@@ -20,9 +21,15 @@ logger = logging.getLogger(__name__)
 
 
 def _generate(gen, value, path):
-    """Worker: make one frame's cube (module level, so it pickles)."""
-    gen.generate(value, path)
-    return value
+    """Worker: make one frame's cube (module level, so it pickles); its energy."""
+    made = gen.generate(value, path)
+    return value, getattr(made, "energy", None)
+
+
+def _record(manifest, entry, energy) -> None:
+    """Enter a generated frame (and its energy) in the manifest's record."""
+    record_generated_frame(manifest, {"file": Path(entry.file).name, "value": float(entry.value),
+                                      "energy": energy})
 
 
 def ensure_frames(manifest, *, jobs=1, progress=None) -> str:
@@ -64,21 +71,31 @@ def ensure_frames(manifest, *, jobs=1, progress=None) -> str:
     if jobs > 1 and total > 1:
         with ProcessPoolExecutor(max_workers=min(jobs, total),
                                  mp_context=worker_context()) as pool:
-            futures = [pool.submit(_generate, gen, e.value, e.file) for e in missing]
+            futures = {pool.submit(_generate, gen, e.value, e.file): e for e in missing}
             try:
                 for n, fut in enumerate(as_completed(futures), start=1):
-                    value = fut.result()
+                    value, energy = fut.result()
+                    _record(manifest, futures[fut], energy)
                     report(progress, "generate frames", n, total, f"value {value:g}")
             except BaseException:
                 pool.shutdown(wait=True, cancel_futures=True)
                 raise
     else:
         for n, e in enumerate(missing, start=1):
-            _generate(gen, e.value, e.file)
+            _record(manifest, e, _generate(gen, e.value, e.file)[1])
             report(progress, "generate frames", n, total, f"value {e.value:g}")
     if gen is not None:
         return gen.describe()
     return "cube files"
+
+
+def _recorded_energies(manifest) -> dict:
+    """Energies of generated frames made in this run (the manifest was loaded before)."""
+    from trackscan.io.manifest import read_frame_record
+
+    folder = Path(manifest.frames_directory)
+    return {os.path.normcase(os.path.abspath(folder / r["file"])): r["energy"]
+            for r in read_frame_record(folder) if r.get("energy") is not None}
 
 
 def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None) -> dict:
@@ -111,11 +128,14 @@ def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None
                             periodic=manifest.periodic, jobs=jobs, cache_dir=cache_dir,
                             progress=progress)
     base = manifest.base_dir
+    energies = _recorded_energies(manifest)
     for entry, frame in zip(manifest.frames, frames):
         frame["value"] = float(entry.value)
         frame["source"] = Path(os.path.relpath(entry.file, base)).as_posix()
-        if entry.energy is not None:
-            frame["energy_hartree"] = float(entry.energy)
+        energy = entry.energy if entry.energy is not None else energies.get(
+            os.path.normcase(os.path.abspath(entry.file)))
+        if energy is not None:
+            frame["energy_hartree"] = float(energy)
     tracked = track_scan(frames, settings=tracking, unit=manifest.coordinate.unit)
     logger.info("%s: %d frames, %d changes", manifest.name, len(frames), len(tracked["changes"]))
     scan = {
@@ -130,6 +150,9 @@ def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None
     }
     if manifest.description:
         scan["description"] = manifest.description
+    if out_dir is not None:
+        # where the report finds the frames' cubes (frame sources are relative to it)
+        scan["manifest"] = Path(os.path.relpath(manifest.path, out_dir)).as_posix()
     return {
         "schema": SCHEMA,
         "scan": scan,

@@ -18,6 +18,7 @@ from pathlib import Path
 
 from trackscan.analysis import analyze_scan, write_scan
 from trackscan.io.manifest import load_manifest
+from trackscan.io.output import prepare_output_dir
 from trackscan.progress import TextProgress
 from trackscan.tracking import describe_change
 
@@ -70,15 +71,21 @@ def summary_lines(scan: dict) -> list:
 
 
 def run(args) -> int:
+    from trackscan.refine.scan import annotate_scan
+    from trackscan.report import write_report
+
     manifest = load_manifest(args.manifest)
-    out = Path(args.out) if args.out else Path("reports") / manifest.name
+    out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
     progress = TextProgress()
     scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress)
-    progress.close()
+    # frames made by an earlier refine keep their estimates and evaluation counts
+    scan = annotate_scan(manifest, scan)
     path = out / "scan.json"
     write_scan(path, scan)
+    files = write_report(path, out, source_dir=manifest.base_dir, progress=progress)
+    progress.close()
     for line in summary_lines(scan):
         print(line)
-    print(f"wrote {os.fspath(path)}")
+    print(f"wrote {os.fspath(path)} and {os.fspath(files.html)}")
     sys.stdout.flush()
     return 0

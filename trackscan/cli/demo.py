@@ -92,7 +92,9 @@ def run(args) -> int:
     if args.tolerance is not None and not args.tolerance > 0:
         raise InputError(f"--tolerance must be > 0, got {args.tolerance:g}")
     src = scans_folder() / args.scan
-    out = Path(args.out) if args.out else Path("reports") / args.scan
+    from trackscan.io.output import prepare_output_dir
+
+    out = prepare_output_dir(args.out if args.out else Path("reports") / args.scan)
     inputs = out / "input"
     t0 = time.perf_counter()
     _copy_inputs(src, inputs)

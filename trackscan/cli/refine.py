@@ -78,8 +78,10 @@ def run(args) -> int:
     from trackscan.analysis import write_scan
     from trackscan.refine.scan import refine_manifest, suggest_values
 
+    from trackscan.io.output import prepare_output_dir
+
     manifest = load_manifest(args.manifest)
-    out = Path(args.out) if args.out else Path("reports") / manifest.name
+    out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
     backend = _backend(args)
     try:
         if args.suggest:

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from trackscan.errors import InputError
+
 
 def add_arguments(parser) -> None:
     """Arguments of ``trackscan report``."""
@@ -28,8 +30,12 @@ def run(args) -> int:
     from trackscan.progress import TextProgress
     from trackscan.report import write_report
 
+    from trackscan.io.output import prepare_output_dir
+
     src = Path(args.scan)
-    out = Path(args.out) if args.out else (src if src.is_dir() else src.parent)
+    if not src.exists():
+        raise InputError("no such scan.json or folder", src)
+    out = prepare_output_dir(args.out if args.out else (src if src.is_dir() else src.parent))
     progress = TextProgress()
     files = write_report(src, out, source_dir=args.source_dir,
                          date=None if args.no_date else "today", progress=progress)

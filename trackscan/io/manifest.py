@@ -41,12 +41,13 @@ import yaml
 
 from trackscan.coordinates import COORDINATE_KINDS, measure
 from trackscan.errors import ConfigError, InputError, ParseError
+from trackscan.io.atomic import write_text_atomic
 from trackscan.io.cube import DEFAULT_MAX_POINTS, parse_cube_header
 from trackscan.settings import AnalysisSettings
 from trackscan.units import BOHR_IN_ANGSTROM
 
 __all__ = ["ScanManifest", "Coordinate", "FrameEntry", "load_manifest",
-           "read_frame_record", "RECORD_NAME"]
+           "read_frame_record", "record_generated_frame", "generated_frame_name", "RECORD_NAME"]
 
 RECORD_NAME = "record.json"
 """File name of the record of generated frames, in the frames directory."""
@@ -406,6 +407,32 @@ def _frames(data, chk: _Checker, base: Path, coord: Coordinate, has_generator: b
             raise ConfigError(f"two frames share the coordinate value {a.value:g}: "
                               f"{a.file.name} and {b.file.name}", chk.path, "frames")
     return tuple(entries), frames_dir
+
+
+def record_generated_frame(manifest, entry: dict) -> Path:
+    """Add (or replace) one frame in the manifest's record of generated frames.
+
+    Parameters
+    ----------
+    manifest : ScanManifest
+    entry : dict
+        ``file`` (name relative to the frames folder), ``value``, and
+        optionally ``energy`` and ``refine``.
+
+    Returns
+    -------
+    Path
+        The record file, ``<frames_directory>/record.json``, rewritten
+        atomically (sorted by value; the user's YAML is never touched).
+    """
+    folder = Path(manifest.frames_directory)
+    frames = [f for f in read_frame_record(folder) if f["file"] != entry["file"]]
+    clean = {k: v for k, v in entry.items() if v is not None}
+    frames.append(clean)
+    frames.sort(key=lambda f: (float(f["value"]), f["file"]))
+    path = folder / RECORD_NAME
+    write_text_atomic(path, json.dumps({"frames": frames}, indent=1, sort_keys=True) + "\n")
+    return path
 
 
 def generated_frame_name(value: float) -> str:

@@ -5,7 +5,7 @@ runs the refine loop (:func:`trackscan.refine.loop.refine_frames`) with the
 manifest's generator, and returns the scan.json dict with every change's
 estimate, method, evaluations and uncertainty.  Each new cube is written
 to the frames folder and entered in its ``record.json``
-(:func:`record_generated_frame`, atomic) before the loop takes its next
+(:func:`trackscan.io.manifest.record_generated_frame`, atomic) before the loop takes its next
 step, so a refine that stops half way (an error, a killed job) resumes where
 it stopped when rerun: :func:`trackscan.io.manifest.load_manifest` merges the
 recorded frames, their analyses come from the cache, and the loop makes the
@@ -25,45 +25,19 @@ from pathlib import Path
 
 from trackscan.errors import InputError
 from trackscan.io.atomic import write_text_atomic
-from trackscan.io.manifest import RECORD_NAME, generated_frame_name, read_frame_record
+from trackscan.io.manifest import generated_frame_name, read_frame_record, record_generated_frame
 from trackscan.refine.backends import LocalBackend
 from trackscan.refine.estimates import annotate_changes
 from trackscan.refine.loop import REFINE_KEY, check_options, plan_round, refine_frames
 from trackscan.refine.proposals import DECIMALS
 
-__all__ = ["record_generated_frame", "refine_manifest", "suggest_values", "load_frames",
+__all__ = ["record_generated_frame", "annotate_scan", "refine_manifest", "suggest_values", "load_frames",
            "SUGGESTIONS_NAME"]
 
 logger = logging.getLogger(__name__)
 
 #: File (in the suggestions folder) listing the values suggested so far.
 SUGGESTIONS_NAME = "suggested.json"
-
-
-def record_generated_frame(manifest, entry: dict) -> Path:
-    """Add (or replace) one frame in the manifest's record of generated frames.
-
-    Parameters
-    ----------
-    manifest : ScanManifest
-    entry : dict
-        ``file`` (name relative to the frames folder), ``value``, and
-        optionally ``energy`` and ``refine``.
-
-    Returns
-    -------
-    Path
-        The record file, ``<frames_directory>/record.json``, rewritten
-        atomically (sorted by value; the user's YAML is never touched).
-    """
-    folder = Path(manifest.frames_directory)
-    frames = [f for f in read_frame_record(folder) if f["file"] != entry["file"]]
-    clean = {k: v for k, v in entry.items() if v is not None}
-    frames.append(clean)
-    frames.sort(key=lambda f: (float(f["value"]), f["file"]))
-    path = folder / RECORD_NAME
-    write_text_atomic(path, json.dumps({"frames": frames}, indent=1, sort_keys=True) + "\n")
-    return path
 
 
 def _key(value) -> float:
@@ -226,17 +200,43 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
     # every frame is in the cache by now (with an out_dir): this only tracks and assembles
     scan = analyze_scan(final, out_dir=out_dir, jobs=jobs if isinstance(backend, LocalBackend)
                         else 1, progress=progress)
-    meta = _recorded_meta(final)
-    for f in scan["frames"]:
-        m = meta.get(os.path.normcase(os.path.abspath(final.base_dir / f["source"])))
-        if m is not None:
-            f[REFINE_KEY] = dict(m)
-    scan["changes"] = annotate_changes(scan["frames"], scan["changes"], tolerance=tolerance,
-                                       gtol=final.analysis.gtol)
+    scan = annotate_scan(final, scan, tolerance=tolerance)
     scan["scan"]["refine"] = {"tolerance": float(tolerance), "max_evaluations": max_evaluations,
                               "evaluations": result.total_evaluations,
                               "converged": result.converged, "message": result.message}
     return scan, result
+
+
+def annotate_scan(manifest, scan: dict, *, tolerance: float | None = None) -> dict:
+    """Give an analysed scan its refinement bookkeeping and change estimates.
+
+    Frames that refinement made get their ``refine`` records back from the
+    manifest's record of generated frames, and every change gets its
+    estimate, method, evaluations and uncertainty
+    (:func:`trackscan.refine.estimates.annotate_changes`), so analysing a
+    refined scan again keeps what refinement found.
+
+    Parameters
+    ----------
+    manifest : ScanManifest
+    scan : dict
+        From :func:`trackscan.analysis.analyze_scan`; changed in place.
+    tolerance : float, optional
+        The refine tolerance, when known.
+
+    Returns
+    -------
+    dict
+        `scan`.
+    """
+    meta = _recorded_meta(manifest)
+    for f in scan["frames"]:
+        m = meta.get(os.path.normcase(os.path.abspath(manifest.base_dir / f["source"])))
+        if m is not None:
+            f[REFINE_KEY] = dict(m)
+    scan["changes"] = annotate_changes(scan["frames"], scan["changes"], tolerance=tolerance,
+                                       gtol=manifest.analysis.gtol)
+    return scan
 
 
 def suggest_values(manifest, *, tolerance: float, jobs: int = 1, out_dir=None,

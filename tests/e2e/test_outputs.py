@@ -1,0 +1,53 @@
+"""Output folders and the hand-over between analyze, refine and report.
+
+- trackscan never writes into a folder holding files it did not write;
+- analysing a refined scan again keeps refinement's estimates and counts;
+- analyze writes the report beside scan.json.
+"""
+
+import importlib.util
+import json
+from pathlib import Path
+
+from trackscan.cli import main
+from trackscan.io.output import MARKER
+
+_spec = importlib.util.spec_from_file_location(
+    "fold_model", Path(__file__).parents[1] / "refine" / "fold_model.py")
+fm = importlib.util.module_from_spec(_spec)
+_spec.loader.exec_module(fm)
+
+VALUES = [2.7, 2.8, 2.9, 3.0]
+
+
+def test_foreign_output_folder_is_refused(tmp_path, capsys):
+    manifest = fm.write_scan(tmp_path / "scan", VALUES, spacing=0.2)
+    out = tmp_path / "thesis"
+    out.mkdir()
+    (out / "report.html").write_text("my own notes")
+    assert main(["analyze", str(manifest), "--out", str(out)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "did not write" in err[0] and "thesis" in err[0]
+    assert sorted(p.name for p in out.iterdir()) == ["report.html"]
+    assert (out / "report.html").read_text() == "my own notes"
+    assert not (tmp_path / "scan" / "frames").exists()     # nothing generated either
+
+
+def test_refined_scan_analysed_again_keeps_estimates(tmp_path, capsys):
+    manifest = fm.write_scan(tmp_path / "scan", VALUES, spacing=0.2)
+    out = tmp_path / "out"
+    assert main(["refine", str(manifest), "--tolerance", "1e-3", "--out", str(out)]) == 0
+    refined = json.loads((out / "scan.json").read_text())
+    assert (out / MARKER).is_file()
+    assert main(["analyze", str(manifest), "--out", str(out)]) == 0
+    again = json.loads((out / "scan.json").read_text())
+    assert refined["changes"], "the model has a fold inside the scan"
+    for a, b in zip(refined["changes"], again["changes"]):
+        assert b["bracket"] == a["bracket"]
+        assert b["evaluations"] == a["evaluations"] > 0
+        assert b["estimate_method"] == a["estimate_method"] != "bracket-midpoint"
+        assert b["estimate"] == a["estimate"]
+    # the report was written by analyze, and it finds the cubes through scan.manifest
+    assert (out / "report.html").is_file()
+    assert again["scan"]["manifest"] == "../scan/scan.yaml"
+    assert "cube not found" not in (out / "report.md").read_text()
