@@ -15,7 +15,6 @@ at once.
 from __future__ import annotations
 
 import logging
-import os
 from concurrent.futures import ProcessPoolExecutor, as_completed
 
 from trackscan.errors import InputError
@@ -112,19 +111,9 @@ class DaskBackend:
     """
 
     def __init__(self, address):
-        try:
-            from dask.distributed import Client
-        except ImportError:
-            raise InputError("--dask needs dask.distributed: pip install 'trackscan[dask]'") \
-                from None
-        if isinstance(address, Client):
-            self.client, self._own = address, False
-        else:
-            try:
-                self.client, self._own = Client(address, timeout="20s"), True
-            except (OSError, TimeoutError, ValueError) as exc:
-                raise InputError(f"cannot reach the dask scheduler at {address} ({exc})") \
-                    from None
+        from trackscan.analysis.distributed import connect
+
+        self.client, self._own = connect(address)
         self.jobs = max(1, len(self.client.scheduler_info().get("workers", {})))
 
     def describe(self) -> str:
@@ -148,29 +137,10 @@ class DaskBackend:
 
     def analyse(self, files, settings, *, periodic: bool, cache_dir, progress=None) -> list:
         """Frame dicts of cube files, analysed on the workers, cached here."""
-        from trackscan.analysis.cache import cache_key, file_digest, load_entry, store_entry
-        from trackscan.analysis.runner import analyse_cube
-        from trackscan.progress import report
+        from trackscan.analysis import analyse_frames
 
-        files = [os.fspath(f) for f in files]
-        sdict = settings.to_dict()
-        results, keys, todo = [None] * len(files), [None] * len(files), []
-        for i, f in enumerate(files):
-            if not os.path.isfile(f):
-                raise InputError("frame file does not exist", f)
-            if cache_dir is not None:
-                keys[i] = cache_key(file_digest(f), sdict, periodic=periodic)
-                results[i] = load_entry(cache_dir, keys[i])
-            if results[i] is None:
-                todo.append(i)
-        futures = [self.client.submit(analyse_cube, files[i], sdict, periodic, pure=False)
-                   for i in todo]
-        for n, (i, fut) in enumerate(zip(todo, futures), start=1):
-            results[i] = fut.result()
-            if cache_dir is not None:
-                store_entry(cache_dir, keys[i], results[i])
-            report(progress, "analyse frames", n, len(todo), os.path.basename(files[i]))
-        return results
+        return analyse_frames(files, settings, periodic=periodic, cache_dir=cache_dir,
+                              progress=progress, dask=self.client)
 
     def close(self) -> None:
         if self._own:
