@@ -98,7 +98,8 @@ def _recorded_energies(manifest) -> dict:
             for r in read_frame_record(folder) if r.get("energy") is not None}
 
 
-def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None) -> dict:
+def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None,
+                 dask=None) -> dict:
     """Analyse every frame of a scan and track it; the scan.json dict.
 
     Parameters
@@ -112,6 +113,9 @@ def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None
     tracking : TrackingSettings, optional
     progress : callable, optional
         Receives ProgressEvent objects.
+    dask : str or dask.distributed.Client, optional
+        Analyse the frames on this dask.distributed scheduler (its workers
+        must see the cube files) instead of `jobs` local processes.
 
     Returns
     -------
@@ -126,7 +130,7 @@ def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None
     cache_dir = None if out_dir is None else Path(out_dir) / ".cache"
     frames = analyse_frames([e.file for e in manifest.frames], manifest.analysis,
                             periodic=manifest.periodic, jobs=jobs, cache_dir=cache_dir,
-                            progress=progress)
+                            progress=progress, dask=dask)
     base = manifest.base_dir
     energies = _recorded_energies(manifest)
     for entry, frame in zip(manifest.frames, frames):

@@ -7,7 +7,8 @@ and writes DIR/scan.json (default DIR: reports/<scan name>/ under the
 current folder).  Per-frame results are cached in DIR/.cache, keyed by each
 cube file's content, the analysis settings and the trackscan version, so a
 rerun analyses only new or changed frames.  The same input gives the same
-scan.json, byte for byte.
+scan.json, byte for byte.  --dask ADDRESS runs the frame analyses on a
+dask.distributed scheduler instead of local processes.
 """
 
 from __future__ import annotations
@@ -29,6 +30,9 @@ def add_arguments(parser) -> None:
                         help="output folder (default: reports/<scan name>/)")
     parser.add_argument("--jobs", "-j", metavar="N", type=int, default=1,
                         help="worker processes for the frame analyses (default 1)")
+    parser.add_argument("--dask", metavar="ADDRESS", default=None,
+                        help="dask.distributed scheduler for the frame analyses (extra 'dask'; "
+                             "its workers must see the cube files)")
 
 
 def _bracket(ch, unit) -> str:
@@ -77,7 +81,8 @@ def run(args) -> int:
     manifest = load_manifest(args.manifest)
     out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
     progress = TextProgress()
-    scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress)
+    scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress,
+                        dask=args.dask)
     # frames made by an earlier refine keep their estimates and evaluation counts
     scan = annotate_scan(manifest, scan)
     path = out / "scan.json"
