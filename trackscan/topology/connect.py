@@ -11,7 +11,19 @@ batch from the ring CPs towards the cage CPs.
 - Ring atoms: a ring CP's ring surface is spanned by the eigenvectors of its
   two positive eigenvalues; rays leaving the CP in that plane run uphill
   along the surface and end at the nuclei of the ring [1]_.  The atoms are
-  listed in the cyclic order in which the rays meet them.
+  listed in the cyclic order in which the rays meet them.  Rays start
+  evenly spaced and along both principal directions.  Close to a fold the
+  ring CP's smaller positive curvature ``lambda2`` tends to zero: a ray at
+  angle ``a`` from ``e2`` grows like ``(cos a e^(lambda2 t), sin a
+  e^(lambda3 t))``, so all but a sliver of rays about ``+/-e2`` turn towards
+  ``+/-e3`` and an atom reached only through that sliver is missed.  A ring
+  whose atoms are fewer than three, or whose cyclic neighbours are not all
+  joined by a bond path (the boundary of a ring surface is made of bond
+  paths), is therefore resampled: a ray is added halfway between every two
+  neighbouring rays that end at different attractors, for up to
+  ``RING_REFINE_ROUNDS`` rounds; if that does not close it, the rays are
+  cast again from larger circles (``RING_RADII``), where the sliver is
+  wider, keeping only starts that lie uphill of the CP.
 - Cage rings: from a ring CP along +/- the eigenvector of its negative
   eigenvalue the density falls; the path ends at a cage CP (or leaves the
   molecule).  A cage lists the ring CPs whose paths end in it.
@@ -31,13 +43,21 @@ import numpy as np
 from trackscan.topology.paths import trace_paths
 from trackscan.topology.results import BondPath
 
-__all__ = ["connect_points", "end_key", "RING_RAYS", "PATH_OFFSET"]
+__all__ = ["connect_points", "end_key", "RING_RAYS", "RING_REFINE_ROUNDS", "RING_RADII",
+           "PATH_OFFSET"]
 
 PATH_OFFSET = 0.02
 """Distance (bohr) from the CP at which each gradient path starts."""
 
 RING_RAYS = 24
-"""Rays per ring surface."""
+"""Evenly spaced rays per ring surface (four more run along +/-e2, +/-e3)."""
+
+RING_REFINE_ROUNDS = 10
+"""Rounds of ray bisection for a ring surface whose atoms do not close a
+ring of bond paths (24 rays refined 10 times resolve 0.015 degrees)."""
+
+RING_RADII = (0.05, 0.1, 0.2)
+"""Larger start circles (bohr) for ring surfaces that bisection did not close."""
 
 
 def _cyclic_sequence(labels):
@@ -64,6 +84,103 @@ def _cyclic_sequence(labels):
     if len(out) > 2 and end_key(out[-1]) < end_key(out[1]):
         out = [out[0]] + out[1:][::-1]
     return out
+
+
+def _ring_start(cp, angle, radius=PATH_OFFSET):
+    """Start of the ring-surface ray at `angle` from e2 towards e3."""
+    e2, e3 = cp.eigenvectors[1], cp.eigenvectors[2]
+    return cp.position + radius * (np.cos(angle) * e2 + np.sin(angle) * e3)
+
+
+def _ring_closed(labels, bonded):
+    """True when the cyclic atom sequence is a ring of bond paths (>= 3 atoms)."""
+    seq = _cyclic_sequence(labels)
+    if len(seq) < 3 or len(set(seq)) != len(seq):
+        return False
+    return all(frozenset((seq[k - 1], seq[k])) in bonded for k in range(len(seq)))
+
+
+def _labels(hits):
+    return [hits[a] for a in sorted(hits)]
+
+
+def _uphill_start(field, cp, angle, radius, samples=8):
+    """True when rho rises all the way from the ring CP to the ray's start.
+
+    A start beyond a nearby bond CP (the density falls again past it) would
+    no longer lie on the ring surface.
+    """
+    t = np.linspace(0.0, 1.0, samples + 1)[:, None]
+    v = field.evaluate(cp.position + t * (_ring_start(cp, angle, radius) - cp.position), 0)[0]
+    return bool(np.all(np.diff(v) > 0))
+
+
+def _refine_rings(field, rings, hits, bonded, *, trace, label):
+    """Resample the ring surfaces whose rays do not close a ring of bond paths.
+
+    For each such ring: bisect between neighbouring rays that end at
+    different attractors (``RING_REFINE_ROUNDS`` rounds); if the ring is
+    still open, cast the rays again from circles of larger radius
+    (``RING_RADII``; the linear sliver of the first circle widens as
+    ``radius^(lambda3/lambda2)``), keeping only starts reached uphill from
+    the CP, and bisect again.  `hits[i]` (angle -> end label) is replaced by
+    the first sampling that closes the ring, else by the one that reaches
+    the most attractors.
+
+    Parameters
+    ----------
+    trace : callable
+        ``trace(starts, firsts) -> PathBundle``.
+    label : callable
+        ``label(target index) -> attractor label or None``.
+    """
+    def run(batch):
+        if not batch:
+            return
+        bundle = trace(np.array([x for _, _, _, x in batch]),
+                       np.array([rings[i].position for i, _, _, _ in batch]))
+        for k, (i, a, h, _) in enumerate(batch):
+            h[a] = label(int(bundle.target[k]))
+
+    def bisect(samples, radius):
+        for _ in range(RING_REFINE_ROUNDS):
+            batch = []
+            for i, h in samples.items():
+                angles = sorted(h)
+                labels = [h[a] for a in angles]
+                if _ring_closed(labels, bonded):
+                    continue
+                for k in range(len(angles)):
+                    if labels[k - 1] == labels[k]:
+                        continue
+                    a0 = angles[k - 1] - (2.0 * np.pi if k == 0 else 0.0)
+                    mid = float(np.mod(0.5 * (a0 + angles[k]), 2.0 * np.pi))
+                    if mid not in h:
+                        batch.append((i, mid, h, _ring_start(rings[i], mid, radius)))
+            if not batch:
+                return
+            run(batch)
+
+    def score(h):
+        return len(set(x for x in _labels(h) if x is not None))
+
+    todo = {i: h for i, h in hits.items() if not _ring_closed(_labels(h), bonded)}
+    if not todo:
+        return
+    bisect(todo, PATH_OFFSET)
+    base = sorted(hits[next(iter(hits))]) if hits else []
+    for radius in RING_RADII:
+        todo = {i: h for i, h in todo.items() if not _ring_closed(_labels(h), bonded)}
+        if not todo:
+            return
+        fresh = {i: {} for i in todo}
+        batch = [(i, a, fresh[i], _ring_start(rings[i], a, radius))
+                 for i in todo for a in base if _uphill_start(field, rings[i], a, radius)]
+        run(batch)
+        bisect({i: h for i, h in fresh.items() if h}, radius)
+        for i, h in fresh.items():
+            if _ring_closed(_labels(h), bonded) or score(h) > score(todo[i]):
+                hits[i] = todo[i] = h
 
 
 def end_key(label):
@@ -123,26 +240,26 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
             starts.append(cp.position + s * PATH_OFFSET * e3)
             firsts.append(cp.position)
             owners.append(("b", i))
-    ang = 2.0 * np.pi * (np.arange(RING_RAYS) + 0.5) / RING_RAYS
+    ang = np.sort(np.concatenate([2.0 * np.pi * (np.arange(RING_RAYS) + 0.5) / RING_RAYS,
+                                  0.5 * np.pi * np.arange(4)]))
     for i, cp in enumerate(rings):
-        e2, e3 = cp.eigenvectors[1], cp.eigenvectors[2]
         for a in ang:
-            starts.append(cp.position + PATH_OFFSET * (np.cos(a) * e2 + np.sin(a) * e3))
+            starts.append(_ring_start(cp, a))
             firsts.append(cp.position)
-            owners.append(("r", i))
+            owners.append(("r", i, a))
     halves = {}
-    ring_hits = {i: [] for i in range(len(rings))}
+    ring_hits = {i: {} for i in range(len(rings))}      # angle -> end label
     if starts:
         bundle = trace_paths(field, np.array(starts), uphill=True, targets=targets, radii=radii,
                              inside=region.in_grid, first_points=np.array(firsts))
-        for k, (what, i) in enumerate(owners):
+        for k, (what, i, *a) in enumerate(owners):
             t = int(bundle.target[k])
             t = int(owner[t]) if t >= 0 else -1
             end = label_of(ends[t]) if t >= 0 else None
             if what == "b":
                 halves.setdefault(i, []).append((end, bundle.points[k], bundle.reason[k], t))
             else:
-                ring_hits[i].append(end)
+                ring_hits[i][a[0]] = end
     paths = []
     for i, cp in enumerate(bonds):
         (e1, p1, r1, t1), (e2, p2, r2, t2) = halves[i]
@@ -159,8 +276,18 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
         paths.append(BondPath(cp=cp, atoms=list(atoms), points=pts, length=length,
                               internuclear=internuclear,
                               complete=(e1 is not None and e2 is not None), reasons=reasons))
+    bonded = {frozenset(bp.atoms) for bp in paths if bp.complete}
+
+    def trace(x, firsts):
+        return trace_paths(field, x, uphill=True, targets=targets, radii=radii,
+                           inside=region.in_grid, first_points=firsts)
+
+    def label(t):
+        return label_of(ends[int(owner[t])]) if t >= 0 else None
+
+    _refine_rings(field, rings, ring_hits, bonded, trace=trace, label=label)
     for i, cp in enumerate(rings):
-        cp.atoms = _cyclic_sequence(ring_hits[i])
+        cp.atoms = _cyclic_sequence([ring_hits[i][a] for a in sorted(ring_hits[i])])
     if cages and rings:
         starts, owners = [], []
         for i, cp in enumerate(rings):
