@@ -55,6 +55,13 @@ def _switch(r, r_in, r_out):
     return s, ds, dds
 
 
+def _sum_pairs(sel, contrib, n):
+    """Per-point sums of pair contributions (P, C): shape (n * C,), in pair order."""
+    c = contrib.shape[1]
+    idx = (sel[:, None] * c + np.arange(c)).ravel()
+    return np.bincount(idx, weights=contrib.ravel(), minlength=n * c)
+
+
 class LocalizedPromolecule:
     """Free-atom densities switched off smoothly between `r_in` and `r_out`.
 
@@ -114,6 +121,8 @@ class LocalizedPromolecule:
         self.r_in = float(r_in)
         self.r_out = float(r_out)
         self._atoms = [Promolecule([z], [p]) for z, p in zip(numbers, positions)]
+        self._groups = [int(z) for z in np.unique(numbers)]     # elements present
+        self._code = np.searchsorted(self._groups, numbers)     # element of each atom
         self._table_r = np.linspace(0.0, self.r_out, int(np.ceil(self.r_out / _TABLE_STEP)) + 1)
         self._tables = {}
         self._terms = {}
@@ -122,7 +131,7 @@ class LocalizedPromolecule:
     def _table(self, z):
         """Switched radial density of element z on the fine table of radii."""
         if z not in self._tables:
-            self._tables[z] = self._radial_z(z, self._table_r, 0.0, 0)[0]
+            self._tables[z] = self._switched(self._table_r, 0.0, 0, z=z)[0]
         return self._tables[z]
 
     def __len__(self):
@@ -167,40 +176,41 @@ class LocalizedPromolecule:
         d = d[atom, sel]
         r = np.sqrt(r2[atom, sel])
         m = len(sel)
-        f = np.empty(m)
-        d1_over = np.empty(m) if order >= 1 else None
-        d2 = np.empty(m) if order >= 2 else None
-        for z in np.unique(self.numbers[atom]):
-            k = np.nonzero(self.numbers[atom] == z)[0]
-            out = self._radial_z(int(z), r[k], self.positions[atom[k], 0], order)
-            f[k] = out[0]
-            if order >= 1:
-                d1_over[k] = out[2]
-            if order >= 2:
-                d2[k] = out[3]
+        f, _, d1_over, d2 = self._switched(r, self.positions[atom, 0], order,
+                                           codes=self._code[atom])
         val += np.bincount(sel, weights=f, minlength=n)
         if order == 0:
             return (val,)
-        contrib = d1_over[:, None] * d
-        for c in range(3):
-            grad[:, c] += np.bincount(sel, weights=contrib[:, c], minlength=n)
+        # one bincount over (point, component): each component's sum keeps atom order
+        grad += _sum_pairs(sel, d1_over[:, None] * d, n).reshape(n, 3)
         if order == 1:
             return val, grad
         safe = np.maximum(r, 1e-12)
         e = d / safe[:, None]
         ee = e[:, :, None] * e[:, None, :]
         contrib = (d2[:, None, None] * ee + d1_over[:, None, None] * (np.eye(3) - ee))
-        flat = hess.reshape(n, 9)
-        contrib = contrib.reshape(m, 9)
-        for c in range(9):
-            flat[:, c] += np.bincount(sel, weights=contrib[:, c], minlength=n)
+        hess += _sum_pairs(sel, contrib.reshape(m, 9), n).reshape(n, 3, 3)
         return val, grad, hess
 
-    def _radial_z(self, z, r, x0, order):
-        """F, F' and F'/r, F'' of the softened, switched atom z at distances r.
+    def _switched(self, r, x0, order, *, codes=None, z=None):
+        """F, F' and F'/r, F'' of the softened, switched atoms at distances r.
 
+        Parameters
+        ----------
+        r : (P,) float array
+            Distances from the atoms.
+        x0 : (P,) float array or float
+            x coordinates of the atoms.
+        order : {0, 1, 2}
+        codes : (P,) int array, optional
+            Element of each distance (index into the elements present).
+        z : int, optional
+            The one element of all distances (instead of `codes`).
+
+        Notes
+        -----
         The free atom is evaluated at ``(x0 + rs, y, z)`` for an atom at
-        ``(x0, y, z)`` -- the rounding of ``(x0 + rs) - x0`` is kept so the
+        ``(x0, y, z)`` -- the rounding of ``(x0 + rs) - x0`` is kept, so the
         numbers equal those of ``Promolecule([z], [p]).evaluate`` along x --
         from its radial terms, without building 3 x 3 Hessians.
         """
@@ -208,7 +218,7 @@ class LocalizedPromolecule:
         rs = np.sqrt(r * r + a * a)
         dx = (rs + x0) - x0
         rr = np.sqrt(dx * dx)
-        f, _, d1r, d2 = _atom_radial(self._terms_of(z), rr, order)
+        f, d1r, d2 = self._free(rr, order, codes, z)
         s, ds, dds = _switch(r, self.r_in, self.r_out)
         if order == 0:
             return s * f, None, None, None
@@ -226,6 +236,28 @@ class LocalizedPromolecule:
         g2 = f2 * (r / rs) ** 2 + f1 * a * a / rs ** 3
         d2 = s * g2 + 2.0 * ds * g1 + dds * f
         return big, d1, d1_over, d2
+
+    def _free(self, rr, order, codes, z):
+        """f, f'/r and f'' of the free atoms (per element) at distances rr."""
+        if z is None and len(self._groups) == 1:
+            z = self._groups[0]
+        if z is not None:
+            f, _, d1r, d2 = _atom_radial(self._terms_of(z), rr, order)
+            return f, d1r, d2
+        f = np.empty(len(rr))
+        d1r = np.empty(len(rr)) if order >= 1 else None
+        d2 = np.empty(len(rr)) if order >= 2 else None
+        for c, zc in enumerate(self._groups):
+            k = np.flatnonzero(codes == c)
+            if len(k) == 0:
+                continue
+            out = _atom_radial(self._terms_of(zc), rr[k], order)
+            f[k] = out[0]
+            if order >= 1:
+                d1r[k] = out[2]
+            if order >= 2:
+                d2[k] = out[3]
+        return f, d1r, d2
 
     def _terms_of(self, z):
         """Radial terms of the free atom of element z."""
@@ -284,6 +316,6 @@ class LocalizedPromolecule:
             f += (t - k) * (table[k + 1] - f)
             near = r < _EXACT_RADIUS
             if np.any(near):
-                f[near] = self._radial_z(int(atom.numbers[0]), r[near], pos[0], 0)[0]
+                f[near] = self._switched(r[near], pos[0], 0, z=int(atom.numbers[0]))[0]
             out[lo[0]:hi[0] + 1, lo[1]:hi[1] + 1, lo[2]:hi[2] + 1] += f
         return out
