@@ -22,7 +22,7 @@ from typing import Protocol, runtime_checkable
 
 import numpy as np
 
-__all__ = ["Field"]
+__all__ = ["Field", "FieldBase"]
 
 
 @runtime_checkable
@@ -40,3 +40,27 @@ class Field(Protocol):
 
     def evaluate(self, points: np.ndarray, order: int = 2) -> tuple:
         """``(value,)``, ``(value, gradient)`` or ``(value, gradient, hessian)``."""
+
+
+class FieldBase:
+    """Mixin: ``value``, ``gradient`` and ``hessian`` from ``evaluate``.
+
+    A field implements ``evaluate(points, order)`` (its one fast path) and
+    inherits the three single-quantity methods of the protocol.
+    """
+
+    def value(self, points) -> np.ndarray:
+        """Field values at points, shape (N,)."""
+        return self.evaluate(points, 0)[0]
+
+    def gradient(self, points) -> np.ndarray:
+        """Gradients at points, shape (N, 3)."""
+        return self.evaluate(points, 1)[1]
+
+    def hessian(self, points) -> np.ndarray:
+        """Hessians at points, shape (N, 3, 3)."""
+        return self.evaluate(points, 2)[2]
+
+    def evaluate(self, points, order: int = 2) -> tuple:  # pragma: no cover - abstract
+        """``(value,)``, ``(value, gradient)`` or ``(value, gradient, hessian)``."""
+        raise TypeError(f"{type(self).__name__} must implement evaluate(points, order)")

@@ -28,6 +28,7 @@ import math
 import numpy as np
 
 from trackscan.grid import DensityGrid
+from trackscan.field import FieldBase
 
 __all__ = ["Promolecule", "CLEMENTI_RAIMONDI", "atom_terms", "MODEL_LABEL", "promolecule_grid",
            "grid_box"]
@@ -133,7 +134,7 @@ def _radial(terms, r, order):
     return f, d1, d1_over_r, d2
 
 
-class Promolecule:
+class Promolecule(FieldBase):
     """Sum of Clementi–Raimondi free-atom densities; a :class:`~trackscan.field.Field`.
 
     Parameters
@@ -195,17 +196,6 @@ class Promolecule:
         return f"Promolecule({len(self.numbers)} atoms)"
 
     # -- Field protocol --------------------------------------------------
-    def value(self, points) -> np.ndarray:
-        """Density at points, shape (N,) (e/bohr^3)."""
-        return self.evaluate(points, order=0)[0]
-
-    def gradient(self, points) -> np.ndarray:
-        """Gradient at points, shape (N, 3)."""
-        return self.evaluate(points, order=1)[1]
-
-    def hessian(self, points) -> np.ndarray:
-        """Hessian at points, shape (N, 3, 3)."""
-        return self.evaluate(points, order=2)[2]
 
     def evaluate(self, points, order: int = 2) -> tuple:
         """Value and derivatives in one pass.

@@ -9,13 +9,14 @@ at its centre like a real nucleus).
 from __future__ import annotations
 
 import numpy as np
+from trackscan.field import FieldBase
 
 __all__ = ["SphericalSum"]
 
 _KINDS = ("gaussian", "slater")
 
 
-class SphericalSum:
+class SphericalSum(FieldBase):
     """A sum of spherical Gaussian or Slater functions (a Field).
 
     Parameters
@@ -45,18 +46,6 @@ class SphericalSum:
         if np.any(self.exponents <= 0):
             raise ValueError("exponents must be positive")
         self.kind = kind
-
-    def value(self, points):
-        """Values at points, shape (N,)."""
-        return self.evaluate(points, 0)[0]
-
-    def gradient(self, points):
-        """Gradients, shape (N, 3)."""
-        return self.evaluate(points, 1)[1]
-
-    def hessian(self, points):
-        """Hessians, shape (N, 3, 3)."""
-        return self.evaluate(points, 2)[2]
 
     def evaluate(self, points, order: int = 2) -> tuple:
         """Value and exact derivatives at points; see :class:`trackscan.field.Field`."""

@@ -22,6 +22,7 @@ import numpy as np
 from trackscan.fields.bspline import TricubicBSpline
 from trackscan.fields.localized import R_INNER, R_OUTER, LocalizedPromolecule
 from trackscan.grid import DensityGrid
+from trackscan.field import FieldBase
 
 __all__ = ["GridField", "CORE_RADIUS"]
 
@@ -32,7 +33,7 @@ samples are replaced by a smooth fit (see :class:`GridField`)."""
 logger = logging.getLogger(__name__)
 
 
-class GridField:
+class GridField(FieldBase):
     """Value, gradient and Hessian of a gridded density (a Field).
 
     Parameters
@@ -115,18 +116,6 @@ class GridField:
     def fractional_index(self, points) -> np.ndarray:
         """Fractional grid indices of points (bohr), shape (N, 3)."""
         return (np.asarray(points, dtype=np.float64).reshape(-1, 3) - self._origin) @ self._inv
-
-    def value(self, points) -> np.ndarray:
-        """Density at points, shape (N,)."""
-        return self.evaluate(points, 0)[0]
-
-    def gradient(self, points) -> np.ndarray:
-        """Gradient at points, shape (N, 3)."""
-        return self.evaluate(points, 1)[1]
-
-    def hessian(self, points) -> np.ndarray:
-        """Hessian at points, shape (N, 3, 3)."""
-        return self.evaluate(points, 2)[2]
 
     def evaluate(self, points, order: int = 2) -> tuple:
         """Value and Cartesian derivatives at points (bohr).

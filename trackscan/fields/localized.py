@@ -24,6 +24,7 @@ import numpy as np
 
 from trackscan.promolecule import _R_FLOOR, Promolecule, atom_terms
 from trackscan.promolecule import _radial as _atom_radial
+from trackscan.field import FieldBase
 
 __all__ = ["LocalizedPromolecule", "R_INNER", "R_OUTER"]
 
@@ -62,7 +63,7 @@ def _sum_pairs(sel, contrib, n):
     return np.bincount(idx, weights=contrib.ravel(), minlength=n * c)
 
 
-class LocalizedPromolecule:
+class LocalizedPromolecule(FieldBase):
     """Free-atom densities switched off smoothly between `r_in` and `r_out`.
 
     Implements :class:`trackscan.field.Field`.
@@ -136,18 +137,6 @@ class LocalizedPromolecule:
 
     def __len__(self):
         return len(self._atoms)
-
-    def value(self, points):
-        """Values at points, shape (N,)."""
-        return self.evaluate(points, 0)[0]
-
-    def gradient(self, points):
-        """Gradients at points, shape (N, 3)."""
-        return self.evaluate(points, 1)[1]
-
-    def hessian(self, points):
-        """Hessians at points, shape (N, 3, 3)."""
-        return self.evaluate(points, 2)[2]
 
     def evaluate(self, points, order: int = 2) -> tuple:
         """Value and derivatives at points; see :class:`trackscan.field.Field`.
