@@ -14,6 +14,7 @@ older file at the same path untouched).
 
 from __future__ import annotations
 
+import abc
 import os
 from dataclasses import dataclass
 from pathlib import Path
@@ -71,7 +72,7 @@ class GeneratedFrame:
         return os.fspath(self.path)
 
 
-class Generator:
+class Generator(abc.ABC):
     """Base class: a density source at any value of the scanned coordinate.
 
     Parameters
@@ -95,9 +96,9 @@ class Generator:
         """True when :meth:`geometry` can give a geometry."""
         return self.drive is not None
 
+    @abc.abstractmethod
     def describe(self) -> str:
         """One line naming the density source, for reports."""
-        raise NotImplementedError
 
     def geometry(self, value: float) -> XYZFrame:
         """The geometry at coordinate `value`.
@@ -120,6 +121,7 @@ class Generator:
         write_xyz(path, self.geometry(value))
         return Path(path)
 
+    @abc.abstractmethod
     def generate(self, value: float, cube_path, workdir=None) -> GeneratedFrame:
         """Produce the density cube at coordinate `value`.
 
@@ -141,7 +143,6 @@ class Generator:
         GeneratorError
             When the source fails; no cube is left at `cube_path`.
         """
-        raise NotImplementedError
 
     def __repr__(self) -> str:
         return f"<{type(self).__name__}: {self.describe()}>"
