@@ -11,6 +11,7 @@ import difflib
 from dataclasses import dataclass
 
 from trackscan.errors import ConfigError
+from trackscan.io.keycheck import as_number
 
 __all__ = ["AnalysisSettings"]
 
@@ -134,6 +135,7 @@ def _coerce(value, kind, path, where):
             return value
         raise ConfigError(f"expected an integer, got {value!r}", path, where)
     if kind == "float":
+        value = as_number(value)
         if isinstance(value, (int, float)) and not isinstance(value, bool):
             return float(value)
         raise ConfigError(f"expected a number, got {value!r}", path, where)

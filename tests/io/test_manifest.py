@@ -110,3 +110,13 @@ def test_generated_frames_record_merged(scan_dir):
     m = load_manifest(scan_dir / "s.yaml")
     assert [f.value for f in m.frames] == [0.7, 0.9]
     assert m.frames[0].generated and m.frames[0].energy == -1.0
+
+
+def test_yaml11_exponent_numbers_accepted(scan_dir):
+    # PyYAML (YAML 1.1) reads 1e-9 without a decimal point as a string
+    (scan_dir / "s.yaml").write_text(
+        "name: x\ncoordinate: {label: s, unit: u}\nanalysis: {gtol: 1e-9}\n"
+        "frames:\n  - {file: frames/h2_0.cube, value: 1e-1}\n")
+    m = load_manifest(scan_dir / "s.yaml")
+    assert m.analysis.gtol == 1e-9
+    assert m.frames[0].value == 0.1

@@ -26,13 +26,12 @@ Paths resolve relative to the manifest.  Wrong keys and values raise
 from __future__ import annotations
 
 import difflib
-import math
 import re
 from dataclasses import dataclass
 from pathlib import Path
 
 from trackscan.coordinates import COORDINATE_KINDS
-from trackscan.errors import ConfigError
+from trackscan.io.keycheck import KeyChecker
 
 __all__ = ["GeneratorConfig", "GeometryConfig", "DriveConfig", "PromoleculeConfig",
            "PySCFConfig", "CommandConfig", "parse_generator_config", "PLACEHOLDERS"]
@@ -146,60 +145,7 @@ class GeneratorConfig:
     manifest: Path | None = None
 
 
-class _Check:
-    def __init__(self, path):
-        self.path = path
-
-    def fail(self, key, message):
-        raise ConfigError(message, self.path, key)
-
-    def mapping(self, value, key, allowed):
-        if not isinstance(value, dict):
-            self.fail(key, f"expected a mapping, got {type(value).__name__}")
-        for k in value:
-            if k not in allowed:
-                close = difflib.get_close_matches(str(k), allowed, n=1)
-                hint = f" (did you mean {close[0]!r}?)" if close else \
-                    f" (expected one of: {', '.join(allowed)})"
-                self.fail(f"{key}.{k}", f"unknown key{hint}")
-        return value
-
-    def number(self, value, key, *, positive=False, minimum=None):
-        if isinstance(value, str):
-            # YAML 1.1 reads 1e-9 (no dot) as a string
-            try:
-                value = float(value)
-            except ValueError:
-                pass
-        if isinstance(value, bool) or not isinstance(value, (int, float)) \
-                or not math.isfinite(value):
-            self.fail(key, f"expected a number, got {value!r}")
-        if positive and value <= 0:
-            self.fail(key, f"must be > 0, got {value!r}")
-        if minimum is not None and value < minimum:
-            self.fail(key, f"must be >= {minimum}, got {value!r}")
-        return float(value)
-
-    def integer(self, value, key, *, minimum=None):
-        if isinstance(value, bool) or not isinstance(value, int):
-            self.fail(key, f"expected an integer, got {value!r}")
-        if minimum is not None and value < minimum:
-            self.fail(key, f"must be >= {minimum}, got {value!r}")
-        return int(value)
-
-    def string(self, value, key):
-        if not isinstance(value, str) or not value.strip():
-            self.fail(key, f"expected a non-empty string, got {value!r}")
-        return value
-
-    def file(self, value, key, base):
-        p = base / self.string(value, key)
-        if not p.is_file():
-            self.fail(key, f"file not found: {p}")
-        return p
-
-
-def _drive(raw, chk: _Check) -> DriveConfig:
+def _drive(raw, chk: KeyChecker) -> DriveConfig:
     key = "generator.geometry.drive"
     chk.mapping(raw, key, _DRIVE)
     kinds = [k for k in COORDINATE_KINDS if k in raw]
@@ -208,12 +154,7 @@ def _drive(raw, chk: _Check) -> DriveConfig:
                       "dihedral: [i, j, k, l]")
     kind = kinds[0]
     n = COORDINATE_KINDS[kind]
-    atoms = raw[kind]
-    if not isinstance(atoms, list) or len(atoms) != n or not all(
-            isinstance(a, int) and not isinstance(a, bool) and a >= 1 for a in atoms):
-        chk.fail(f"{key}.{kind}", f"expected a list of {n} atom numbers (1-based), got {atoms!r}")
-    if len(set(atoms)) != n:
-        chk.fail(f"{key}.{kind}", f"atoms must be distinct, got {atoms!r}")
+    atoms = list(chk.atoms(raw[kind], f"{key}.{kind}", n))
     move = None
     if "move" in raw:
         m = raw["move"]
@@ -232,7 +173,7 @@ def _drive(raw, chk: _Check) -> DriveConfig:
     return DriveConfig(kind, tuple(atoms), move, unit)
 
 
-def _geometry(raw, chk: _Check, base: Path) -> GeometryConfig:
+def _geometry(raw, chk: KeyChecker, base: Path) -> GeometryConfig:
     key = "generator.geometry"
     chk.mapping(raw, key, _GEOMETRY)
     if ("xyz" in raw) == ("trajectory" in raw):
@@ -256,7 +197,7 @@ def _geometry(raw, chk: _Check, base: Path) -> GeometryConfig:
     return GeometryConfig(trajectory=traj, drive=drive, values=values)
 
 
-def _command(raw, timeout, chk: _Check, has_geometry: bool) -> CommandConfig:
+def _command(raw, timeout, chk: KeyChecker, has_geometry: bool) -> CommandConfig:
     key = "generator.command"
     if isinstance(raw, str):
         chk.fail(key, "expected a list of arguments, e.g. [\"prog\", \"--out\", \"{cube}\"] "
@@ -305,7 +246,7 @@ def parse_generator_config(mapping, *, path=None) -> GeneratorConfig:
     ConfigError
         With the key path of the first problem.
     """
-    chk = _Check(None if path is None else Path(path))
+    chk = KeyChecker(None if path is None else Path(path))
     base = Path(path).absolute().parent if path is not None else Path.cwd()
     chk.mapping(mapping, "generator", _TOP)
     geometry = _geometry(mapping["geometry"], chk, base) if "geometry" in mapping else None

@@ -30,10 +30,8 @@ merged in here.
 
 from __future__ import annotations
 
-import difflib
 import glob as globmod
 import json
-import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -43,6 +41,7 @@ from trackscan.coordinates import COORDINATE_KINDS, measure
 from trackscan.errors import ConfigError, InputError, ParseError
 from trackscan.io.atomic import write_text_atomic
 from trackscan.io.cube import DEFAULT_MAX_POINTS, parse_cube_header
+from trackscan.io.keycheck import KeyChecker
 from trackscan.settings import AnalysisSettings
 from trackscan.units import BOHR_IN_ANGSTROM
 
@@ -202,51 +201,6 @@ def _scalar(node):
         loader.dispose()
 
 
-class _Checker:
-    """Type checks that name the key path and line."""
-
-    def __init__(self, path, lines):
-        self.path = path
-        self.lines = lines
-
-    def fail(self, key, message):
-        raise ConfigError(message, self.path, key, self.line_of(key))
-
-    def line_of(self, key):
-        """Line of `key`, or of its closest parent when the key is missing."""
-        while key:
-            if key in self.lines:
-                return self.lines[key]
-            key = key.rsplit(".", 1)[0] if "." in key else (key.rsplit("[", 1)[0] if "[" in key else "")
-        return self.lines.get("", 1)
-
-    def mapping(self, value, key, allowed):
-        if not isinstance(value, dict):
-            self.fail(key, f"expected a mapping, got {type(value).__name__}")
-        for k in value:
-            if k not in allowed:
-                close = difflib.get_close_matches(str(k), allowed, n=1)
-                hint = f" (did you mean {close[0]!r}?)" if close else ""
-                sub = f"{key}.{k}" if key else str(k)
-                self.fail(sub, f"unknown key{hint}; allowed: {', '.join(allowed)}")
-        return value
-
-    def string(self, value, key):
-        if not isinstance(value, str) or not value.strip():
-            self.fail(key, f"expected a non-empty string, got {value!r}")
-        return value
-
-    def number(self, value, key):
-        if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
-            self.fail(key, f"expected a finite number, got {value!r}")
-        return float(value)
-
-    def boolean(self, value, key):
-        if not isinstance(value, bool):
-            self.fail(key, f"expected true or false, got {value!r}")
-        return value
-
-
 # -- loading ----------------------------------------------------------------
 
 def _read_text(path: Path) -> str:
@@ -264,7 +218,7 @@ def _read_text(path: Path) -> str:
         raise InputError(f"cannot read the manifest ({exc.strerror})", path) from None
 
 
-def _coordinate(data, chk: _Checker) -> Coordinate:
+def _coordinate(data, chk: KeyChecker) -> Coordinate:
     chk.mapping(data, "coordinate", _COORD_KEYS)
     kinds = [k for k in COORDINATE_KINDS if k in data]
     if len(kinds) > 1:
@@ -272,15 +226,7 @@ def _coordinate(data, chk: _Checker) -> Coordinate:
     kind = kinds[0] if kinds else None
     atoms: tuple = ()
     if kind:
-        raw = data[kind]
-        key = f"coordinate.{kind}"
-        n = COORDINATE_KINDS[kind]
-        if not isinstance(raw, list) or len(raw) != n or not all(
-                isinstance(a, int) and not isinstance(a, bool) and a >= 1 for a in raw):
-            chk.fail(key, f"expected a list of {n} atom numbers (1-based), got {raw!r}")
-        if len(set(raw)) != n:
-            chk.fail(key, f"atoms must be distinct, got {raw!r}")
-        atoms = tuple(raw)
+        atoms = chk.atoms(data[kind], f"coordinate.{kind}", COORDINATE_KINDS[kind])
     default_unit = {"distance": "angstrom", "angle": "degree", "dihedral": "degree"}.get(kind, "")
     unit = chk.string(data["unit"], "coordinate.unit") if "unit" in data else default_unit
     if not unit:
@@ -294,7 +240,7 @@ def _coordinate(data, chk: _Checker) -> Coordinate:
     return Coordinate(label=label, unit=unit, kind=kind, atoms=atoms)
 
 
-def _measured_value(file: Path, coord: Coordinate, chk: _Checker, key: str, max_points: int):
+def _measured_value(file: Path, coord: Coordinate, chk: KeyChecker, key: str, max_points: int):
     if coord.kind is None:
         chk.fail(f"{key}.value", "no value given and the coordinate has no measured definition "
                                  "(add coordinate.distance/angle/dihedral or a value per frame)")
@@ -337,7 +283,7 @@ def read_frame_record(directory: Path) -> list:
     return frames
 
 
-def _frames(data, chk: _Checker, base: Path, coord: Coordinate, has_generator: bool,
+def _frames(data, chk: KeyChecker, base: Path, coord: Coordinate, has_generator: bool,
             max_points: int):
     entries = []
     frames_dir = base / "frames"
@@ -472,7 +418,7 @@ def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
         raise ConfigError(exc.message, path, exc.key, exc.lineno) from None
     except yaml.YAMLError as exc:
         raise ParseError(f"bad YAML: {exc}", path) from None
-    chk = _Checker(path, lines)
+    chk = KeyChecker(path, lines)
     if not isinstance(data, dict):
         chk.fail("", "expected a mapping at the top level (name, coordinate, frames, ...)")
     chk.mapping(data, "", _TOP_KEYS)
