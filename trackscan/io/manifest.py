@@ -453,10 +453,8 @@ def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
 
 def _parse_generator(raw, path, lines):
     """Validate the ``generator`` section with the generators package."""
-    try:
-        from trackscan.generators.config import parse_generator_config
-    except ImportError:  # generators package not installed in this build
-        return raw
+    from trackscan.generators.config import parse_generator_config
+
     try:
         return parse_generator_config(raw, path=path)
     except ConfigError as exc:
