@@ -79,7 +79,8 @@ def run(args) -> int:
     print(f"{'id':<5} {'kind':<12} {'x/Å':>9} {'y/Å':>9} {'z/Å':>9} {'rho':>11} "
           f"{'lap rho':>11} {'ellipt.':>8}  atoms")
     for cp in topo.critical_points:
-        x, y, z = cp.position * BOHR_IN_ANGSTROM
+        # rounded before printing, so that -0.00001 shows as 0.0000, not -0.0000
+        x, y, z = (round(float(c), 4) + 0.0 for c in cp.position * BOHR_IN_ANGSTROM)
         label = _atoms(cp.atoms, symbols)
         if cp.kind == "cage" and cp.rings:
             label = "rings " + ",".join(cp.rings)
