@@ -39,3 +39,22 @@ def test_promolecule_cube_read_by_ase(tmp_path):
     assert np.degrees(np.arccos(a @ b / np.linalg.norm(a) / np.linalg.norm(b))) == \
         pytest.approx(95.0, abs=1e-8)
     assert out.geometry.is_file()
+
+
+def test_model_cube_is_labelled_in_frame_output(tmp_path, capsys):
+    # a cube of the built-in model says so in `trackscan frame` and its JSON
+    import json
+
+    from trackscan.cli import main
+    from trackscan.io.cube import write_cube
+    from trackscan.promolecule import promolecule_grid
+
+    grid = promolecule_grid([1, 1], [[0, 0, -0.7], [0, 0, 0.7]], spacing=0.2, margin=3.0)
+    write_cube(tmp_path / "h2.cube", grid, comments=(MODEL_LABEL, "H2"))
+    write_cube(tmp_path / "plain.cube", grid, comments=("density from elsewhere", ""))
+    assert main(["frame", str(tmp_path / "h2.cube"), "--json", str(tmp_path / "h2.json")]) == 0
+    assert "a model density" in capsys.readouterr().out
+    assert json.loads((tmp_path / "h2.json").read_text())["grid"]["density_model"] == MODEL_LABEL
+    assert main(["frame", str(tmp_path / "plain.cube"), "--json", str(tmp_path / "p.json")]) == 0
+    assert "a model density" not in capsys.readouterr().out
+    assert "density_model" not in json.loads((tmp_path / "p.json").read_text())["grid"]

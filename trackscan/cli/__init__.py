@@ -13,6 +13,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import logging
+import os
 import sys
 
 from trackscan import __version__
@@ -109,3 +110,7 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print("trackscan: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        # stdout closed early (e.g. piped into head): stop quietly
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 1

@@ -76,6 +76,9 @@ def run(args) -> int:
     symbols = grid.symbols
     print(f"file   {grid.source}")
     print(f"field  {topo.field}")
+    if topo.grid_info.get("density_model"):
+        print(f"density  {topo.grid_info['density_model']} -- a model density, not a "
+              "quantum-chemistry result")
     print(f"{'id':<5} {'kind':<12} {'x/Å':>9} {'y/Å':>9} {'z/Å':>9} {'rho':>11} "
           f"{'lap rho':>11} {'ellipt.':>8}  atoms")
     for cp in topo.critical_points:

@@ -152,9 +152,16 @@ def _pos_key(cp):
 
 
 def _grid_info(grid):
-    return {"shape": [int(n) for n in grid.shape], "origin_bohr": fix(grid.origin),
+    from trackscan.promolecule import MODEL_LABEL
+
+    comments = [str(c).strip() for c in grid.comments]
+    info = {"shape": [int(n) for n in grid.shape], "origin_bohr": fix(grid.origin),
             "axes_bohr": fix(grid.axes), "spacing_bohr": fix(grid.spacing),
-            "periodic": bool(grid.periodic)}
+            "periodic": bool(grid.periodic), "comments": comments}
+    if comments and comments[0].startswith(MODEL_LABEL):
+        # written by trackscan's promolecule generator: say so wherever it is shown
+        info["density_model"] = MODEL_LABEL
+    return info
 
 
 def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *, field=None,
