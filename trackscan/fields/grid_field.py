@@ -99,9 +99,13 @@ class GridField(FieldBase):
         if subtract_promolecule and grid.n_atoms:
             z = grid.numbers
             ecp = (grid.charges > 0.5) & (np.abs(grid.charges - z) > 0.5)
+            smooth = _smooth_light_nuclei(grid, (z >= 1) & (z <= 2) & ~ecp)
             model = LocalizedPromolecule(z, grid.positions, r_in=r_in, r_out=r_out,
-                                         include=~ecp,
+                                         include=~ecp & ~smooth,
                                          cell=grid.cell if grid.periodic else None)
+            if np.any(smooth):
+                logger.info("promolecule not subtracted at %d H/He atom(s) whose density has "
+                            "no cusp", int(smooth.sum()))
             if len(model):
                 values = values - model.on_grid(grid.origin, grid.axes, grid.shape)
                 self.model = model
@@ -148,6 +152,66 @@ class GridField(FieldBase):
             extra = self.model.evaluate(pts, order)
             result = [a + b for a, b in zip(result, extra)]
         return tuple(result)
+
+
+def _smooth_light_nuclei(grid, light, *, reach: float = 1.5, factor: float = 2.0):
+    """Light atoms (H, He) whose sampled density has no nuclear cusp.
+
+    A density from a Gaussian basis set is smooth at the nuclei.  There,
+    subtracting the cusped free atom would *put* a cusp into the remainder
+    (an inverted one), and the spline, which rounds it off, leaves a spike
+    at the nucleus when the free atom is added back: 0.02 e/bohr^3 above
+    the true density at an H nucleus of water at RHF/STO-3G, enough to make
+    the nucleus a spurious maximum beside the real one.  H and He have no
+    core that needs the subtraction, so for each light atom the roughness
+    of the samples with and without its free atom subtracted is compared
+    (the sum of squared fourth differences along the three axes, at the
+    nodes within `reach` grid steps of the nucleus: what a cubic cannot
+    follow), and the atom is left out of the model when subtracting makes
+    the samples more than `factor` times rougher.  Measured ratios (with /
+    without, water): 3.2-100 for RHF/STO-3G at 0.2-0.1 bohr, 4.7 for
+    cc-pVDZ at 0.1 bohr, 1.4 for 6-31G* at 0.1 bohr and 0.1 at 0.15-0.2 bohr
+    (its tight primitive looks like a cusp there), 0 for the free-atom model
+    itself.  The factor keeps the subtraction where the two are close: at
+    6-31G* and 0.1 bohr it gives the better ellipticity at the O-H bond CP.
+
+    Returns
+    -------
+    (n,) bool array
+    """
+    from trackscan.promolecule import Promolecule
+
+    out = np.zeros(grid.n_atoms, dtype=bool)
+    inv = np.linalg.inv(grid.axes)
+    shape = np.asarray(grid.shape)
+    h = float(np.max(grid.spacing))
+    half = (reach + 2.5) * h * np.linalg.norm(inv, axis=0)
+    for i in np.nonzero(light)[0]:
+        c = (grid.positions[i] - grid.origin) @ inv
+        lo = np.floor(c - half).astype(np.int64)
+        hi = np.ceil(c + half).astype(np.int64)
+        if grid.periodic:
+            ranges = [np.arange(a, b + 1) for a, b in zip(lo, hi)]
+        else:
+            ranges = [np.arange(max(a, 0), min(b, n - 1) + 1) for a, b, n in zip(lo, hi, shape)]
+        if min(len(r) for r in ranges) < 5:
+            continue
+        rho = grid.values[np.ix_(*[np.mod(r, n) for r, n in zip(ranges, shape)])]
+        nodes = np.stack(np.meshgrid(*ranges, indexing="ij"), -1).astype(np.float64)
+        pts = grid.origin + nodes.reshape(-1, 3) @ grid.axes
+        atom = Promolecule([int(grid.numbers[i])], [grid.positions[i]])
+        rest = rho - atom.evaluate(pts, 0)[0].reshape(rho.shape)
+        near = (np.linalg.norm(pts - grid.positions[i], axis=1) < reach * h).reshape(rho.shape)
+
+        def roughness(y):
+            total = 0.0
+            for ax in range(3):
+                inner = np.take(near, np.arange(2, near.shape[ax] - 2), axis=ax)
+                total += float(np.sum(np.diff(y, 4, axis=ax)[inner] ** 2))
+            return total
+
+        out[i] = roughness(rest) > factor * roughness(rho)
+    return out
 
 
 def _smooth_cores(values, grid, heavy, radius):

@@ -189,7 +189,7 @@ def end_key(label):
 
 
 def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, settings,
-                   label_of, nuclear_radii=None) -> tuple:
+                   label_of, nuclear_radii=None, nuclear_maxima=None) -> tuple:
     """Trace bond paths, ring surfaces and ring-to-cage paths.
 
     Parameters
@@ -210,6 +210,11 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
     nuclear_radii : (len(nuclear),) float array, optional
         Capture radius of each nucleus (default: the larger of
         ``settings.capture_radius`` and ``settings.nuclear_radius``).
+    nuclear_maxima : (len(nuclear), 3) float array, optional
+        The density maximum each nucleus owns when it lies off the nucleus
+        (:func:`trackscan.topology.search.nuclear_maxima`): a path coming
+        within ``settings.capture_radius`` of it has reached that nucleus,
+        and its polyline is closed at the nucleus.
 
     Returns
     -------
@@ -226,11 +231,20 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
     radii = np.concatenate([np.maximum(np.asarray(nuclear_radii, dtype=float),
                                        settings.capture_radius),
                             np.full(len(attractors), settings.capture_radius)])
+    anchors = targets.copy()       # where a path that reached each target ends
+    if nuclear_maxima is not None and len(nuclear):
+        m = np.asarray(nuclear_maxima, dtype=float).reshape(-1, 3)
+        off = np.nonzero(np.linalg.norm(m - targets[:len(nuclear)], axis=1) > 1e-3)[0]
+        targets = np.concatenate([targets, m[off]])
+        anchors = np.concatenate([anchors, anchors[off]])
+        radii = np.concatenate([radii, np.full(len(off), settings.capture_radius)])
+        owner = np.concatenate([owner, off])
     cell = region.cell
     if cell is not None and len(targets):
         # periodic: a path may run to an image of an attractor
         shifts = np.array(list(itertools.product((-1, 0, 1), repeat=3)), dtype=float) @ cell
         targets = (targets[None, :, :] + shifts[:, None, :]).reshape(-1, 3)
+        anchors = (anchors[None, :, :] + shifts[:, None, :]).reshape(-1, 3)
         radii = np.tile(radii, len(shifts))
         owner = np.tile(owner, len(shifts))
     starts, firsts, owners = [], [], []
@@ -254,10 +268,13 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
                              inside=region.in_grid, first_points=np.array(firsts))
         for k, (what, i, *a) in enumerate(owners):
             t = int(bundle.target[k])
+            pts = bundle.points[k]
+            if t >= 0 and np.any(anchors[t] != targets[t]):
+                pts = np.concatenate([pts, anchors[t][None]])    # on to the nucleus
             t = int(owner[t]) if t >= 0 else -1
             end = label_of(ends[t]) if t >= 0 else None
             if what == "b":
-                halves.setdefault(i, []).append((end, bundle.points[k], bundle.reason[k], t))
+                halves.setdefault(i, []).append((end, pts, bundle.reason[k], t))
             else:
                 ring_hits[i][a[0]] = end
     paths = []

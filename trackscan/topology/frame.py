@@ -25,7 +25,7 @@ from trackscan.topology.graph import build_graph
 from trackscan.topology.newton import merge_points
 from trackscan.topology.results import COUNT_KEYS, ID_PREFIX, KINDS, CriticalPoint, fix, sig
 from trackscan.topology.search import (Region, describe_points, exclusion_radii,
-                                       find_critical_points, nuclear_points)
+                                       find_critical_points, nuclear_maxima, nuclear_points)
 
 __all__ = ["analyze_frame", "FrameTopology", "poincare_hopf"]
 
@@ -151,6 +151,14 @@ def _pos_key(cp):
     return tuple(np.round(cp.position, 4).tolist())
 
 
+def _without_nuclear_maxima(cps, maxima, tol):
+    """Drop maxima that are a nucleus's own (off-nucleus) maximum, not non-nuclear attractors."""
+    if len(maxima) == 0:
+        return cps
+    return [cp for cp in cps if cp.kind != "non_nuclear"
+            or np.min(np.linalg.norm(maxima - cp.position, axis=1)) > tol]
+
+
 def _grid_info(grid):
     from trackscan.promolecule import MODEL_LABEL
 
@@ -221,6 +229,14 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
         msg = f"atoms {skipped} are ghosts or outside the grid: no nuclear attractor placed"
         warnings.append(msg)
         logger.warning("%s: %s", grid.source or "grid", msg)
+    # the maximum each nucleus belongs to (off the nucleus in cusp-free densities)
+    maxima, is_max = nuclear_maxima(field, np.array([cp.position for cp in nuclear]),
+                                    gtol=settings.gtol)
+    if not np.all(is_max):
+        msg = (f"atoms {[cp.atoms[0] for cp, m in zip(nuclear, is_max) if not m]} are no "
+               f"maxima of the density (it rises from the nucleus towards a neighbour)")
+        warnings.append(msg)
+        logger.warning("%s: %s", grid.source or "grid", msg)
 
     report("critical points")
     t1 = time.perf_counter()
@@ -233,7 +249,8 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
         allp = np.concatenate([found, pts])
         g = np.linalg.norm(field.evaluate(allp, 1)[1], axis=1) if len(allp) else np.zeros(0)
         found = allp[merge_points(allp, g, settings.xtol, cell=region.cell)]
-        cps = describe_points(field, found, settings)
+        cps = _without_nuclear_maxima(describe_points(field, found, settings), maxima,
+                                      max(10.0 * settings.xtol, 0.02))
         counts = {k: 0 for k in KINDS}
         for cp in nuclear + cps:
             counts[cp.kind] += 1
@@ -274,7 +291,8 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
     excl = exclusion_radii(field, grid, settings)
     paths = connect_points(field, nuclear, attractors, by["bond"], by["ring"], by["cage"],
                            region=region, settings=settings, label_of=label_of,
-                           nuclear_radii=[excl[cp.atoms[0] - 1] for cp in nuclear])
+                           nuclear_radii=[excl[cp.atoms[0] - 1] for cp in nuclear],
+                           nuclear_maxima=maxima)
     timings["paths"] = time.perf_counter() - t2
     # deterministic ids
     order = sorted(range(len(by["bond"])),
