@@ -1,97 +1,94 @@
 """Speed of the single-frame analysis, as a ratio to parsing the same cube.
 
-Builds a 120^3 cube of cyclopropanol (10 atoms, RHF/6-31G* with PySCF's
-cube writer) in a temporary folder, or uses the cube given on the command
-line, then times
+Writes cubes of cyclopropanol (10 atoms) at 80^3, 120^3 and 200^3 points on
+the same box (built-in promolecular density, or RHF/6-31G* with PySCF's cube
+writer with ``--pyscf``) in a temporary folder, or uses the cubes given on
+the command line, then times, alternating, best of a few repetitions:
 
 - parse: ``read_cube`` alone;
 - full: ``read_cube`` + ``analyze_frame`` (field fit, critical points, bond
-  paths, rings and cages, molecular graph),
+  paths, rings and cages, molecular graph).
 
-each the best of a few repetitions, and prints full / parse.  Target: <= 3.
+Prints, per size, full / parse (target <= 3 at every size) and the time per
+grid point of the full analysis and of the analysis alone (full - parse),
+which must not grow with the grid; the last line gives the per-point time
+at the largest size over that at the smallest (target <= 1, noise aside).
 
 Usage::
 
-    python benchmarks/frame.py [FILE.cube] [--repeat N]
+    python benchmarks/frame.py [CUBE ...] [--sizes 80 120 200] [--repeat N] [--pyscf]
 """
 
 from __future__ import annotations
 
 import argparse
-import math
+import sys
 import tempfile
 import time
 from pathlib import Path
 
-import numpy as np
+sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from trackscan.io.cube import read_cube
-from trackscan.topology import analyze_frame
+from molecules import make_cube  # noqa: E402
 
-
-def cyclopropanol():
-    """Cyclopropane (r(CC) 1.51, r(CH) 1.089 A) with one H replaced by OH."""
-    rcc, rch, hch = 1.510, 1.089, math.radians(115.1)
-    rc = rcc / math.sqrt(3.0)
-    atoms = []
-    for k in range(3):
-        phi = 2 * math.pi * k / 3
-        atoms.append(("C", rc * np.array([math.cos(phi), math.sin(phi), 0.0])))
-    for k in range(3):
-        phi = 2 * math.pi * k / 3
-        u = np.array([math.cos(phi), math.sin(phi), 0.0])
-        for s in (1.0, -1.0):
-            d = math.cos(hch / 2) * u + math.sin(hch / 2) * np.array([0, 0, s])
-            if k == 0 and s > 0:
-                o = atoms[0][1] + 1.42 * d
-                perp = np.cross(d, [0.0, 1.0, 0.0])
-                perp /= np.linalg.norm(perp)
-                h = o + 0.96 * (math.cos(math.radians(71)) * d + math.sin(math.radians(71)) * perp)
-                atoms += [("O", o), ("H", h)]
-            else:
-                atoms.append(("H", atoms[k][1] + rch * d))
-    return [(s, tuple(p)) for s, p in atoms]
+from trackscan.io.cube import read_cube  # noqa: E402
+from trackscan.topology import analyze_frame  # noqa: E402
 
 
-def make_cube(path: Path, n: int = 120) -> Path:
-    from pyscf import gto, scf
-    from pyscf.tools import cubegen
-
-    mol = gto.M(atom=cyclopropanol(), basis="6-31g*", unit="Angstrom", verbose=0)
-    mf = scf.RHF(mol).run()
-    cubegen.density(mol, str(path), mf.make_rdm1(), nx=n, ny=n, nz=n, margin=3.0)
-    return path
-
-
-def best(fn, repeat):
-    times = []
+def measure(path: Path, repeat: int):
+    """Best parse and parse + analysis times of one cube, and the result."""
+    parse, full = [], []
+    topo = None
     for _ in range(repeat):
         t0 = time.perf_counter()
-        out = fn()
-        times.append(time.perf_counter() - t0)
-    return min(times), out
+        read_cube(path)
+        parse.append(time.perf_counter() - t0)
+        t0 = time.perf_counter()
+        topo = analyze_frame(read_cube(path))
+        full.append(time.perf_counter() - t0)
+    return min(parse), min(full), topo
 
 
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("cube", nargs="?", help="cube file (default: build a 120^3 one)")
-    ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("cubes", nargs="*", help="cube files (default: build one per size)")
+    ap.add_argument("--sizes", type=int, nargs="+", default=[80, 120, 200])
+    ap.add_argument("--repeat", type=int, default=3, help="repetitions below 200^3 (default 3)")
+    ap.add_argument("--pyscf", action="store_true", help="RHF/6-31G* densities (slow to build)")
     args = ap.parse_args(argv)
+    kind = "pyscf" if args.pyscf else "promolecule"
+    rows = []
     with tempfile.TemporaryDirectory() as tmp:
-        if args.cube:
-            path = Path(args.cube)
+        if args.cubes:
+            paths = [Path(c) for c in args.cubes]
         else:
-            t0 = time.perf_counter()
-            path = make_cube(Path(tmp) / "cyclopropanol_120.cube")
-            print(f"built {path.name} in {time.perf_counter() - t0:.1f} s")
-        t_parse, grid = best(lambda: read_cube(path), args.repeat)
-        t_full, topo = best(lambda: analyze_frame(read_cube(path)), args.repeat)
-    c = topo.counts
-    print(f"grid {grid.shape}, {grid.n_atoms} atoms, spacing {grid.spacing.round(4).tolist()} bohr")
-    print(f"found: {c}; Poincare-Hopf {topo.poincare_hopf}")
-    print("stages (s): " + ", ".join(f"{k} {v:.3f}" for k, v in topo.timings.items()))
-    print(f"parse {t_parse:.3f} s, parse + analysis {t_full:.3f} s, "
-          f"ratio {t_full / t_parse:.2f} (target <= 3)")
+            paths = []
+            for n in args.sizes:
+                t0 = time.perf_counter()
+                paths.append(make_cube(Path(tmp) / f"cyclopropanol_{n}.cube", n, kind=kind))
+                print(f"built {paths[-1].name} ({kind}) in {time.perf_counter() - t0:.1f} s",
+                      flush=True)
+        for path in paths:
+            shape = read_cube(path).shape
+            npts = shape[0] * shape[1] * shape[2]
+            repeat = args.repeat if npts < 150 ** 3 else max(1, min(args.repeat, 2))
+            t_parse, t_full, topo = measure(path, repeat)
+            rows.append((shape, npts, t_parse, t_full, topo))
+            c = {k: v for k, v in topo.counts.items() if v}
+            print(f"{'x'.join(map(str, shape))}: found {c}, Poincare-Hopf "
+                  f"{'holds' if topo.poincare_hopf['holds'] else 'FAILS'}; stages (s) "
+                  + ", ".join(f"{k} {v:.3f}" for k, v in topo.timings.items()), flush=True)
+    print()
+    print(f"{'grid':>12} {'parse s':>8} {'full s':>8} {'full/parse':>10} {'target':>7} "
+          f"{'full us/pt':>10} {'analysis us/pt':>14}")
+    for shape, npts, tp, tf, _ in rows:
+        ok = "ok" if tf / tp <= 3 else "MISSED"
+        print(f"{'x'.join(map(str, shape)):>12} {tp:8.3f} {tf:8.3f} {tf / tp:10.2f} "
+              f"{'<= 3 ' + ok:>7} {1e6 * tf / npts:10.3f} {1e6 * (tf - tp) / npts:14.3f}")
+    if len(rows) > 1:
+        (_, n0, p0, f0, _), (_, n1, p1, f1, _) = rows[0], rows[-1]
+        print(f"per-point time, largest / smallest grid: full {(f1 / n1) / (f0 / n0):.2f}, "
+              f"analysis {((f1 - p1) / n1) / ((f0 - p0) / n0):.2f} (target <= 1)")
     return 0
 
 
