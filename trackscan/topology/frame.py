@@ -220,6 +220,8 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
         field = GridField(grid, subtract_promolecule=settings.subtract_promolecule)
         if field.model is not None:
             label = FIELD_LABEL + ", core promolecule subtracted"
+        elif np.any(field.core_radii > 0):
+            label = FIELD_LABEL + ", core samples smoothed"
     else:
         label = type(field).__name__
     timings["field"] = time.perf_counter() - t0
@@ -288,7 +290,13 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
     def label_of(cp):
         return cp.atoms[0] if cp.kind == "nuclear" else cp.id
 
+    # a path reaching a smoothed core sphere has reached its nucleus; half a grid
+    # step more, because the fit inside the sphere need not match its shell exactly
+    # (a path once stalled 0.005 bohr outside one)
     excl = exclusion_radii(field, grid, settings)
+    core = getattr(field, "core_radii", None)
+    if core is not None and len(core) == grid.n_atoms:
+        excl = excl + np.where(core > 0, 0.5 * float(np.min(grid.spacing)), 0.0)
     paths = connect_points(field, nuclear, attractors, by["bond"], by["ring"], by["cage"],
                            region=region, settings=settings, label_of=label_of,
                            nuclear_radii=[excl[cp.atoms[0] - 1] for cp in nuclear],
