@@ -251,8 +251,8 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
         allp = np.concatenate([found, pts])
         g = np.linalg.norm(field.evaluate(allp, 1)[1], axis=1) if len(allp) else np.zeros(0)
         found = allp[merge_points(allp, g, settings.xtol, cell=region.cell)]
-        cps = _without_nuclear_maxima(describe_points(field, found, settings), maxima,
-                                      max(10.0 * settings.xtol, 0.02))
+        cps = _without_nuclear_maxima(describe_points(field, found, settings),
+                                      region.wrap(maxima), max(10.0 * settings.xtol, 0.02))
         counts = {k: 0 for k in KINDS}
         for cp in nuclear + cps:
             counts[cp.kind] += 1
