@@ -115,20 +115,22 @@ def _uphill_start(field, cp, angle, radius, samples=8):
     return bool(np.all(np.diff(v) > 0))
 
 
-def _refine_rings(field, rings, hits, bonded, *, trace, label):
+def _refine_rings(field, rings, hits, bonded, *, angles, trace, label):
     """Resample the ring surfaces whose rays do not close a ring of bond paths.
 
     For each such ring: bisect between neighbouring rays that end at
     different attractors (``RING_REFINE_ROUNDS`` rounds); if the ring is
     still open, cast the rays again from circles of larger radius
-    (``RING_RADII``; the linear sliver of the first circle widens as
-    ``radius^(lambda3/lambda2)``), keeping only starts reached uphill from
+    (``RING_RADII``; the sliver's angle grows as
+    ``radius^(lambda3/lambda2 - 1)``), keeping only starts reached uphill from
     the CP, and bisect again.  `hits[i]` (angle -> end label) is replaced by
     the first sampling that closes the ring, else by the one that reaches
     the most attractors.
 
     Parameters
     ----------
+    angles : sequence of float
+        The ray angles of the first sampling (reused on the larger circles).
     trace : callable
         ``trace(starts, firsts) -> PathBundle``.
     label : callable
@@ -168,14 +170,13 @@ def _refine_rings(field, rings, hits, bonded, *, trace, label):
     if not todo:
         return
     bisect(todo, PATH_OFFSET)
-    base = sorted(hits[next(iter(hits))]) if hits else []
     for radius in RING_RADII:
         todo = {i: h for i, h in todo.items() if not _ring_closed(_labels(h), bonded)}
         if not todo:
             return
         fresh = {i: {} for i in todo}
         batch = [(i, a, fresh[i], _ring_start(rings[i], a, radius))
-                 for i in todo for a in base if _uphill_start(field, rings[i], a, radius)]
+                 for i in todo for a in angles if _uphill_start(field, rings[i], a, radius)]
         run(batch)
         bisect({i: h for i, h in fresh.items() if h}, radius)
         for i, h in fresh.items():
@@ -302,7 +303,8 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
     def label(t):
         return label_of(ends[int(owner[t])]) if t >= 0 else None
 
-    _refine_rings(field, rings, ring_hits, bonded, trace=trace, label=label)
+    _refine_rings(field, rings, ring_hits, bonded, angles=[float(a) for a in ang], trace=trace,
+                  label=label)
     for i, cp in enumerate(rings):
         cp.atoms = _cyclic_sequence([ring_hits[i][a] for a in sorted(ring_hits[i])])
     if cages and rings:
