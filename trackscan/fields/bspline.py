@@ -101,6 +101,35 @@ def quintic_weights(t: np.ndarray, order: int) -> np.ndarray:
     return w / 120.0
 
 
+def _padded_coefficients(values, degree, lead, periodic):
+    """B-spline coefficients of `values`, padded by `lead` before, `lead` + 1 after.
+
+    The same numbers as ``numpy.pad(ndimage.spline_filter(values, ...), pad,
+    mode="wrap" or "reflect")``, but the filter writes straight into the
+    middle of the padded array and the faces are copied slab by slab, which
+    saves a copy of the whole grid.
+    """
+    mode = "grid-wrap" if periodic else "mirror"
+    n = values.shape
+    out = np.empty(tuple(k + 2 * lead + 1 for k in n))
+    inner = tuple(slice(lead, lead + k) for k in n)
+    ndimage.spline_filter(values, order=degree, mode=mode, output=out[inner])
+
+    def index(axis, i):
+        return (slice(None),) * axis + (i,)
+
+    for axis, k in enumerate(n):
+        # padded index p holds coefficient q(p - lead) of the unpadded axis
+        for p in list(range(lead)) + list(range(lead + k, k + 2 * lead + 1)):
+            j = p - lead
+            if periodic:
+                q = j % k
+            else:             # reflect about the end points (they are not repeated)
+                q = -j if j < 0 else 2 * (k - 1) - j
+            out[index(axis, p)] = out[index(axis, q + lead)]
+    return out
+
+
 class TricubicBSpline:
     """Cardinal tricubic B-spline through the samples of a 3-D array.
 
@@ -139,11 +168,7 @@ class TricubicBSpline:
         self._w = degree + 1                      # coefficients per axis
         self._lead = (degree - 1) // 2            # coefficients before the cell
         self._weights = bspline_weights if degree == 3 else quintic_weights
-        mode = "grid-wrap" if periodic else "mirror"
-        coef = ndimage.spline_filter(values, order=degree, mode=mode, output=np.float64)
-        # pad so that the coefficients i - lead .. i + lead + 1 of every cell exist
-        pad = ((self._lead, self._lead + 1),) * 3
-        coef = np.pad(coef, pad, mode="wrap" if periodic else "reflect")
+        coef = _padded_coefficients(values, degree, self._lead, periodic)
         self._coef = coef.ravel()
         p1, p2 = coef.shape[1], coef.shape[2]
         m = self._w

@@ -37,22 +37,26 @@ _MAX_QUADS = 20000
 
 
 def _central_sign(values, axis, periodic):
-    """Sign (True = positive) of the central difference along `axis` at every node."""
+    """Sign (True = positive) of the central difference along `axis` at every node.
+
+    ``a - b > 0`` exactly when ``a > b`` for finite floats (a difference of
+    two different floats is never rounded to zero), so the comparison is
+    made directly, without a float array of differences.
+    """
     if periodic:
-        d = np.roll(values, -1, axis) - np.roll(values, 1, axis)
-    else:
-        d = np.empty_like(values)
-        sl = [slice(None)] * 3
+        return np.roll(values, -1, axis) > np.roll(values, 1, axis)
+    d = np.empty(values.shape, dtype=bool)
+    sl = [slice(None)] * 3
 
-        def s(a, b):
-            sl2 = list(sl)
-            sl2[axis] = slice(a, b)
-            return tuple(sl2)
+    def s(a, b):
+        sl2 = list(sl)
+        sl2[axis] = slice(a, b)
+        return tuple(sl2)
 
-        d[s(1, -1)] = values[s(2, None)] - values[s(None, -2)]
-        d[s(0, 1)] = values[s(1, 2)] - values[s(0, 1)]
-        d[s(-1, None)] = values[s(-1, None)] - values[s(-2, -1)]
-    return d > 0
+    np.greater(values[s(2, None)], values[s(None, -2)], out=d[s(1, -1)])
+    np.greater(values[s(1, 2)], values[s(0, 1)], out=d[s(0, 1)])
+    np.greater(values[s(-1, None)], values[s(-2, -1)], out=d[s(-1, None)])
+    return d
 
 
 def _corner_any_all(b, periodic):
