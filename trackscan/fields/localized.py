@@ -283,6 +283,7 @@ class LocalizedPromolecule(FieldBase):
         half = self.r_out * np.linalg.norm(inv, axis=0)  # index half-widths
         step = self._table_r[1]
         last = len(self._table_r) - 2
+        orthogonal = bool(np.all(axes[~np.eye(3, dtype=bool)] == 0.0))
         for atom, pos in zip(self._atoms, self.positions):
             c = (pos - origin) @ inv
             lo = np.maximum(np.floor(c - half).astype(np.int64), 0)
@@ -291,12 +292,18 @@ class LocalizedPromolecule(FieldBase):
                 continue
             ranges = [np.arange(a, b + 1, dtype=np.float64) for a, b in zip(lo, hi)]
             rel = origin - pos
-            r2 = None
-            for comp in range(3):
-                dc = (ranges[0][:, None, None] * axes[0, comp]
-                      + (ranges[1][None, :, None] * axes[1, comp]
-                         + (ranges[2][None, None, :] * axes[2, comp] + rel[comp])))
-                r2 = dc * dc if r2 is None else r2 + dc * dc
+            if orthogonal:
+                # each component depends on one index: the same sums, made on
+                # the axes and broadcast once
+                sq = [(ranges[c] * axes[c, c] + rel[c]) ** 2 for c in range(3)]
+                r2 = (sq[0][:, None, None] + sq[1][None, :, None]) + sq[2][None, None, :]
+            else:
+                r2 = None
+                for comp in range(3):
+                    dc = (ranges[0][:, None, None] * axes[0, comp]
+                          + (ranges[1][None, :, None] * axes[1, comp]
+                             + (ranges[2][None, None, :] * axes[2, comp] + rel[comp])))
+                    r2 = dc * dc if r2 is None else r2 + dc * dc
             r = np.sqrt(r2)
             t = np.minimum(r * (1.0 / step), last + 0.999999)
             k = t.astype(np.int64)
