@@ -31,8 +31,8 @@ from trackscan.promolecule import grid_box  # noqa: E402
 from trackscan.settings import AnalysisSettings  # noqa: E402
 from trackscan.topology import analyze_frame  # noqa: E402
 
-_spec = importlib.util.spec_from_file_location(
-    "analytic_reference", Path(__file__).resolve().parents[1] / "tracking" / "analytic_reference.py")
+_REF = Path(__file__).resolve().parents[1] / "tracking" / "analytic_reference.py"
+_spec = importlib.util.spec_from_file_location("analytic_reference", _REF)
 ref = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(ref)
 
@@ -48,7 +48,8 @@ def _co2(axis, shift):
 
 def _ozone(angle=116.8, r=2.415):
     t = np.radians(angle / 2)
-    return [("O", np.array([0.0, 0.0, 0.0])), ("O", np.array([r * np.sin(t), -r * np.cos(t), 0.0])),
+    return [("O", np.array([0.0, 0.0, 0.0])),
+            ("O", np.array([r * np.sin(t), -r * np.cos(t), 0.0])),
             ("O", np.array([-r * np.sin(t), -r * np.cos(t), 0.0]))]
 
 

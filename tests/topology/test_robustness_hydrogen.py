@@ -31,8 +31,8 @@ from trackscan.grid import DensityGrid  # noqa: E402
 from trackscan.promolecule import grid_box  # noqa: E402
 from trackscan.topology import analyze_frame  # noqa: E402
 
-_spec = importlib.util.spec_from_file_location(
-    "analytic_reference", Path(__file__).resolve().parents[1] / "tracking" / "analytic_reference.py")
+_REF = Path(__file__).resolve().parents[1] / "tracking" / "analytic_reference.py"
+_spec = importlib.util.spec_from_file_location("analytic_reference", _REF)
 ref = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(ref)
 

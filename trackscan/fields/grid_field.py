@@ -55,10 +55,11 @@ class GridField(FieldBase):
     core_radius : float, bohr
         With subtraction, the remainder samples within this distance of a
         nucleus heavier than He are replaced by the smoothest continuation
-        of the samples around them (``_smooth_cores``).  A single-zeta free atom describes the 1s core only
-        roughly, so the remainder there is a steep, under-sampled bump
-        (tens of e/bohr^3 at 0.1 bohr from an O nucleus, for an all-electron
-        Gaussian-basis density) that makes the spline ring and creates
+        of the samples around them (``_smooth_cores``).  A single-zeta free
+        atom describes the 1s core only roughly, so the remainder there is a
+        steep, under-sampled bump (tens of e/bohr^3 at 0.1 bohr from an O
+        nucleus, for an all-electron Gaussian-basis density) that makes the
+        spline ring and creates
         spurious critical points out to 0.7 bohr.  No critical point lies in
         a heavy atom's core, and the nuclear attractor is placed at the
         nucleus, so nothing is lost; the field inside the core sphere is
