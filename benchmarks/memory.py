@@ -5,7 +5,9 @@ temporary folder, then runs, each in a fresh child process:
 
 - baseline: the interpreter with trackscan and its dependencies imported;
 - parse: ``read_cube`` alone;
-- analysis: ``read_cube`` + ``analyze_frame``.
+- analysis: ``read_cube`` + ``analyze_frame`` (and, where Linux allows
+  resetting the peak through ``/proc/self/clear_refs``, the peak of the
+  analysis stage alone, with the grid already in memory).
 
 Each child reports its peak resident memory (``VmHWM`` of
 ``/proc/self/status``; ``ru_maxrss`` where there is no /proc), and the
@@ -49,15 +51,31 @@ def peak():
         pass
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
 
+def reset_peak():
+    # restart VmHWM from the current RSS (Linux >= 4.0); False if not possible
+    try:
+        with open("/proc/self/clear_refs", "w") as fh:
+            fh.write("5")
+        return True
+    except OSError:
+        return False
+
 mode, path = sys.argv[1], sys.argv[2]
 nbytes = 0
+stage = None
 if mode in ("parse", "analysis"):
     grid = read_cube(path)
     nbytes = grid.values.nbytes
     if mode == "analysis":
+        whole = peak()
+        if reset_peak():
+            stage = "reset"
         topo = analyze_frame(grid)
         assert topo.poincare_hopf["holds"], topo.poincare_hopf
-print(json.dumps({"peak": peak(), "grid_bytes": nbytes}))
+        if stage:
+            stage = peak()
+print(json.dumps({"peak": max(peak(), whole) if mode == "analysis" else peak(),
+                  "grid_bytes": nbytes, "analysis_stage": stage}))
 """
 
 
@@ -107,13 +125,18 @@ def main(argv=None) -> int:
     grid = rows["analysis"]["grid_bytes"]
     base = rows["baseline"]["peak"]
     for mode, r in rows.items():
+        note = ", counted from the reset" if r.get("analysis_stage") else ""
         print(f"{mode:>9}: peak {r['peak'] / MB:7.1f} MB (ru_maxrss of the child "
-              f"{r['maxrss'] / MB:7.1f} MB)")
+              f"{r['maxrss'] / MB:7.1f} MB{note})")
     peak = rows["analysis"]["peak"]
     limit = 4 * grid + 300 * MB
     print(f"grid {grid / MB:.1f} MB of values ({size / MB:.1f} MB of cube text)")
     print(f"analysis peak / grid bytes = {peak / grid:.2f} (above the baseline: "
           f"{(peak - base) / grid:.2f}); parse alone {rows['parse']['peak'] / grid:.2f}")
+    st = rows["analysis"].get("analysis_stage")
+    if st:
+        print(f"peak while analyse_frame runs (the grid already read): {st / MB:.1f} MB = "
+              f"baseline + {(st - base) / grid:.2f} x grid")
     print(f"peak {peak / MB:.1f} MB vs 4 x grid + 300 MB = {limit / MB:.1f} MB: "
           f"{'ok' if peak <= limit else 'MISSED'}")
     return 0
