@@ -16,8 +16,23 @@ from trackscan.elements import symbol
 __all__ = ["DensityGrid"]
 
 
+def _read_only_through(a) -> bool:
+    """True when neither `a` nor any array it is a view of can be written."""
+    while isinstance(a, np.ndarray):
+        if a.flags.writeable:
+            return False
+        a = a.base
+    return True
+
+
 def _frozen(a, dtype, shape=None, name="array"):
-    arr = np.array(a, dtype=dtype, copy=True)
+    # a read-only array of the right type is adopted as it is (nobody can
+    # write through it); anything else is copied and made read-only
+    if isinstance(a, np.ndarray) and a.dtype == dtype and a.flags.c_contiguous \
+            and _read_only_through(a):
+        arr = a
+    else:
+        arr = np.array(a, dtype=dtype, copy=True)
     if shape is not None:
         if arr.ndim != len(shape) or any(
             s is not None and s != n for s, n in zip(shape, arr.shape)
@@ -56,7 +71,8 @@ class DensityGrid:
 
     Notes
     -----
-    Arrays are copied and made read-only, so a grid can be shared safely.
+    Arrays are copied and made read-only, so a grid can be shared safely; an
+    array that is already read-only is adopted without a copy.
     """
 
     values: np.ndarray

@@ -156,3 +156,32 @@ def test_atomic_output_has_ordinary_permissions(tmp_path):
     finally:
         os.umask(mask)
     assert (tmp_path / "a.txt").stat().st_mode & 0o777 == 0o644
+
+
+def test_grid_adopts_only_arrays_nobody_can_write(tiny):
+    g = read_cube(tiny)
+    assert not g.values.flags.writeable
+    base = np.zeros((2, 2, 2))
+    view = base.view()
+    view.setflags(write=False)
+    g2 = DensityGrid(view, [0, 0, 0], np.eye(3), [1], [1.0], [[0, 0, 0]])
+    base[0, 0, 0] = 5.0  # the caller still holds a writable array: the grid copied
+    assert g2.values[0, 0, 0] == 0.0
+
+
+def test_header_read_without_values(tmp_path):
+    from trackscan.io.cube import read_cube_header
+    g = _random_grid(np.random.default_rng(5))
+    write_cube(tmp_path / "g.cube.gz", g)
+    h = read_cube_header(tmp_path / "g.cube.gz")
+    assert list(h.counts) == [5, 4, 7] and list(h.numbers) == [6, 1, 1]
+
+
+def test_long_header_beyond_first_chunk(tmp_path):
+    # 3000 atoms: the header is longer than the first chunk the reader takes
+    n = 3000
+    g = DensityGrid(np.ones((2, 2, 2)), [0, 0, 0], np.eye(3), [1] * n, [1.0] * n,
+                    np.arange(3 * n, dtype=float).reshape(n, 3) * 0.01)
+    write_cube(tmp_path / "big.cube", g)
+    r = read_cube(tmp_path / "big.cube")
+    assert r.n_atoms == n and r.values.sum() == 8.0

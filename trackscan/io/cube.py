@@ -35,7 +35,7 @@ from trackscan.grid import DensityGrid
 from trackscan.io.atomic import atomic_open
 from trackscan.units import ANGSTROM_IN_BOHR
 
-__all__ = ["read_cube", "write_cube", "parse_cube_header", "CubeHeader",
+__all__ = ["read_cube", "read_cube_header", "write_cube", "parse_cube_header", "CubeHeader",
            "DEFAULT_MAX_POINTS"]
 
 DEFAULT_MAX_POINTS = 512 ** 3
@@ -228,19 +228,90 @@ def parse_cube_header(lines, *, path=None, max_points: int = DEFAULT_MAX_POINTS)
                       header_lines=header_lines)
 
 
-def _read_bytes(path: Path) -> bytes:
+_HEAD_CHUNK = 1 << 16
+
+
+def _open(path: Path):
+    """Open a cube (decompressing by suffix) for binary reading, or raise InputError."""
     if not path.exists():
         raise InputError("no such file", path)
     if path.is_dir():
         raise InputError("is a directory, not a cube file", path)
     opener = _OPENERS.get(path.suffix.lower(), open)
     try:
-        with opener(path, "rb") as fh:
-            return fh.read()
+        return opener(path, "rb")
     except PermissionError:
         raise InputError("permission denied (cannot read the file)", path) from None
-    except (OSError, EOFError, lzma.LZMAError) as exc:
+    except OSError as exc:
         raise InputError(f"cannot read the file ({exc})", path) from None
+
+
+def _read_errors(path: Path):
+    """Context translating read failures of compressed or plain files to InputError."""
+    import contextlib
+
+    @contextlib.contextmanager
+    def guard():
+        try:
+            yield
+        except PermissionError:
+            raise InputError("permission denied (cannot read the file)", path) from None
+        except (OSError, EOFError, lzma.LZMAError) as exc:
+            raise InputError(f"cannot read the file ({exc})", path) from None
+    return guard()
+
+
+def _read_header(fh, path: Path, max_points: int):
+    """Parse the header from the start of an open file; ``(header, byte offset of values)``.
+
+    Reads growing chunks until the header is complete, so a file's value
+    block is never read here.
+    """
+    size = _HEAD_CHUNK
+    while True:
+        fh.seek(0)
+        head = fh.read(size)
+        if not head.strip():
+            raise ParseError("empty file", path)
+        lines = head.decode("latin-1").split("\n")
+        complete = len(head) < size
+        try:
+            header = parse_cube_header(lines if complete else lines[:-1], path=path,
+                                       max_points=max_points)
+        except ParseError as exc:
+            if complete or "file ends in the header" not in exc.message:
+                raise
+            size *= 4
+            continue
+        offset = 0
+        for _ in range(header.header_lines):
+            nl = head.find(b"\n", offset)
+            if nl < 0:
+                if complete:
+                    raise ParseError("file ends in the header", path, header.header_lines)
+                break
+            offset = nl + 1
+        else:
+            return header, offset
+        size *= 4
+
+
+def read_cube_header(path, *, max_points: int = DEFAULT_MAX_POINTS) -> CubeHeader:
+    """Read only the header of a cube file (atoms, grid), not its values.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+    max_points : int
+        Refuse a header claiming more values than this.
+
+    Returns
+    -------
+    CubeHeader
+    """
+    path = Path(path)
+    with _read_errors(path), _open(path) as fh:
+        return _read_header(fh, path, max_points)[0]
 
 
 def _locate_bad_value(body: bytes, first_line: int, path):
@@ -296,33 +367,20 @@ def read_cube(path, *, dataset: int = 0, max_points: int = DEFAULT_MAX_POINTS) -
     7.0
     """
     path = Path(path)
-    data = _read_bytes(path)
-    if not data.strip():
-        raise ParseError("empty file", path)
-    # header: split only as many lines as needed
-    head_chunk = data[:200000]
-    try:
-        head_text = head_chunk.decode("ascii")
-    except UnicodeDecodeError:
-        head_text = head_chunk.decode("latin-1")
-    head_lines = head_text.split("\n")
-    header = parse_cube_header(head_lines, path=path, max_points=max_points)
-    if header.dataset_ids or header.n_values_per_point > 1:
-        nval = header.n_values_per_point
-        if not 0 <= dataset < nval:
-            ids = header.dataset_ids or list(range(1, nval + 1))
-            raise InputError(f"dataset index {dataset} out of range: the file holds {nval} datasets "
-                             f"(ids {ids}); choose 0 to {nval - 1}", path)
-    elif dataset != 0:
-        raise InputError(f"dataset index {dataset} requested but the file holds one dataset", path)
-    # offset of the value block
-    offset = 0
-    for _ in range(header.header_lines):
-        nl = data.find(b"\n", offset)
-        if nl < 0:
-            raise ParseError("file ends in the header", path, header.header_lines)
-        offset = nl + 1
-    body = data[offset:]
+    with _read_errors(path), _open(path) as fh:
+        header, offset = _read_header(fh, path, max_points)
+        if header.dataset_ids or header.n_values_per_point > 1:
+            nval = header.n_values_per_point
+            if not 0 <= dataset < nval:
+                ids = header.dataset_ids or list(range(1, nval + 1))
+                raise InputError(f"dataset index {dataset} out of range: the file holds {nval} "
+                                 f"datasets (ids {ids}); choose 0 to {nval - 1}", path)
+        elif dataset != 0:
+            raise InputError(f"dataset index {dataset} requested but the file holds one dataset",
+                             path)
+        # the value block, read once (no copy of the whole file's bytes)
+        fh.seek(offset)
+        body = fh.read()
     expected = header.n_points * header.n_values_per_point
     first_line = header.header_lines + 1
     with warnings.catch_warnings():
@@ -345,9 +403,11 @@ def read_cube(path, *, dataset: int = 0, max_points: int = DEFAULT_MAX_POINTS) -
     if not np.isfinite(values).all():
         _locate_bad_value(body, first_line, path)
         raise ParseError("non-finite value in the density values", path)
+    del body
     nval = header.n_values_per_point
     if nval > 1:
-        values = values.reshape(-1, nval)[:, dataset]
+        values = np.ascontiguousarray(values.reshape(-1, nval)[:, dataset])
+    values.setflags(write=False)  # ours alone: DensityGrid adopts it without a copy
     values = values.reshape(tuple(int(c) for c in header.counts))
     return DensityGrid(values, header.origin, header.axes, header.numbers, header.charges,
                        header.positions, source=os.fspath(path), comments=header.comments)

@@ -40,7 +40,7 @@ import yaml
 from trackscan.coordinates import COORDINATE_KINDS, measure
 from trackscan.errors import ConfigError, InputError, ParseError
 from trackscan.io.atomic import write_text_atomic
-from trackscan.io.cube import DEFAULT_MAX_POINTS, parse_cube_header
+from trackscan.io.cube import DEFAULT_MAX_POINTS, read_cube_header
 from trackscan.io.keycheck import KeyChecker
 from trackscan.settings import AnalysisSettings
 from trackscan.units import BOHR_IN_ANGSTROM
@@ -253,10 +253,7 @@ def _measured_value(file: Path, coord: Coordinate, chk: KeyChecker, key: str, ma
 
 
 def _read_header(file: Path, max_points: int):
-    from trackscan.io.cube import _read_bytes  # shared reader: compression, errors
-    data = _read_bytes(file)
-    text = data[:200000].decode("latin-1")
-    return parse_cube_header(text.split("\n"), path=file, max_points=max_points)
+    return read_cube_header(file, max_points=max_points)
 
 
 def read_frame_record(directory: Path) -> list:
