@@ -219,7 +219,19 @@ def _climb(field, x0, home, reach, gtol, max_iter=200):
         value[idx[up]] = vt[up]
         step[idx[up]] = np.minimum(2.0 * step[idx[up]], 0.05)
         step[idx[~up]] *= 0.5
+        # a step that failed next to the nucleus: if the nucleus itself is
+        # higher, go there (at a cusp the next evaluation ends the climb
+        # instead of halving the step twenty times)
+        near = idx[~up][np.linalg.norm(x[idx[~up]] - home[idx[~up]], axis=1) < 0.1]
+        if len(near):
+            vh = field.evaluate(home[near], 0)[0]
+            jump = vh > value[near]
+            x[near[jump]] = home[near[jump]]
+            value[near[jump]] = vh[jump]
         active[idx[~up & (step[idx] < 1e-6)]] = False      # rho falls every way: a cusp
+        # on the nucleus, falling every way at a small step already: the cusp maximum
+        at_home = np.linalg.norm(x[idx] - home[idx], axis=1) == 0.0
+        active[idx[~up & at_home & (step[idx] < 0.01)]] = False
         gone = np.linalg.norm(x[idx] - home[idx], axis=1) > reach[idx]
         inside[idx[gone]] = False
         active[idx[gone]] = False
