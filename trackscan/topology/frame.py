@@ -209,6 +209,11 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
     timings = {}
     warnings = []
 
+    def warn(msg):
+        """Keep a warning with the frame's result and log it (never silently)."""
+        warnings.append(msg)
+        logger.warning("%s: %s", grid.source or "grid", msg)
+
     stages = ("field", "critical points", "paths", "done")
 
     def report(stage, frac=None):
@@ -229,16 +234,14 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
     nuclear, skipped = nuclear_points(field, grid, region)
     if skipped:
         msg = f"atoms {skipped} are ghosts or outside the grid: no nuclear attractor placed"
-        warnings.append(msg)
-        logger.warning("%s: %s", grid.source or "grid", msg)
+        warn(msg)
     # the maximum each nucleus belongs to (off the nucleus in cusp-free densities)
     maxima, is_max = nuclear_maxima(field, np.array([cp.position for cp in nuclear]),
                                     gtol=settings.gtol)
     if not np.all(is_max):
         msg = (f"atoms {[cp.atoms[0] for cp, m in zip(nuclear, is_max) if not m]} are no "
                f"maxima of the density (it rises from the nucleus towards a neighbour)")
-        warnings.append(msg)
-        logger.warning("%s: %s", grid.source or "grid", msg)
+        warn(msg)
 
     report("critical points")
     t1 = time.perf_counter()
@@ -270,13 +273,11 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
         msg = (f"Poincare-Hopf cannot be confirmed: {n_deg} degenerate critical point(s) "
                f"(an eigenvalue below {settings.degenerate_tol:g}); n - b + r - c of the "
                f"others = {ph['value']}, expected {ph['expected']}")
-        warnings.append(msg)
-        logger.warning("%s: %s", grid.source or "grid", msg)
+        warn(msg)
     elif not complete:
         msg = (f"Poincare-Hopf fails: n - b + r - c = {ph['value']}, expected {ph['expected']} "
                f"(after {level} retries); critical points may be missing")
-        warnings.append(msg)
-        logger.warning("%s: %s", grid.source or "grid", msg)
+        warn(msg)
 
     report("paths")
     t2 = time.perf_counter()
@@ -325,8 +326,7 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
     if open_paths:
         msg = (f"{len(open_paths)} bond path(s) do not reach an attractor at both ends: "
                + ", ".join(bp.cp.id for bp in open_paths))
-        warnings.append(msg)
-        logger.warning("%s: %s", grid.source or "grid", msg)
+        warn(msg)
     all_cps = nuclear + attractors + bonds + rings_sorted + cages + degenerate
     graph = build_graph(all_cps, paths, grid.numbers, complete=complete)
     timings["total"] = time.perf_counter() - t0
