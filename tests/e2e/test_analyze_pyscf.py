@@ -25,12 +25,9 @@ import pytest
 import yaml
 
 pyscf = pytest.importorskip("pyscf")
-from pyscf import gto, scf  # noqa: E402
 
 from trackscan.cli import main  # noqa: E402
-from trackscan.grid import DensityGrid  # noqa: E402
 from trackscan.io.cube import write_cube  # noqa: E402
-from trackscan.promolecule import grid_box  # noqa: E402
 
 _spec = importlib.util.spec_from_file_location(
     "analytic_reference", Path(__file__).resolve().parents[1] / "tracking" / "analytic_reference.py")
@@ -55,20 +52,9 @@ def _ozone(angle, rot=None, shift=0.0, r=2.5):
 
 def _frame(atoms, path, *, reference=True):
     """SCF, cube file and (optionally) analytic reference graph of one geometry."""
-    mol = gto.M(atom=[[s, tuple(float(x) for x in p)] for s, p in atoms], basis="sto-3g",
-                unit="Bohr", verbose=0)
-    mf = scf.RHF(mol)
-    mf.conv_tol = 1e-10
-    mf.kernel()
-    assert mf.converged
-    dm = mf.make_rdm1()
-    pos = mol.atom_coords()
-    origin, axes, shape = grid_box(pos, spacing=SPACING, margin=MARGIN)
-    pts = origin + np.indices(shape).reshape(3, -1).T @ axes
-    ao = mol.eval_gto("GTOval_sph", pts)
-    rho = np.einsum("pi,ij,pj->p", ao, dm, ao).reshape(shape)
-    z = mol.atom_charges()
-    write_cube(path, DensityGrid(rho, origin, axes, z, z.astype(float), pos))
+    mol, dm, grid = ref.scf_density_grid(atoms, basis="sto-3g", spacing=SPACING, margin=MARGIN)
+    pos = grid.positions
+    write_cube(path, grid)
     if not reference:
         return None
     graph = ref.molecular_graph(ref.AnalyticDensity(mol, dm), pos)

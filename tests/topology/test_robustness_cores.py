@@ -24,10 +24,7 @@ import numpy as np
 import pytest
 
 pytest.importorskip("pyscf")
-from pyscf import gto, scf  # noqa: E402
 
-from trackscan.grid import DensityGrid  # noqa: E402
-from trackscan.promolecule import grid_box  # noqa: E402
 from trackscan.settings import AnalysisSettings  # noqa: E402
 from trackscan.topology import analyze_frame  # noqa: E402
 
@@ -64,20 +61,8 @@ CASES = {   # name: atoms, basis, spacing, tolerance on the bond-CP ellipticity
 @pytest.fixture(scope="module", params=sorted(CASES))
 def case(request):
     atoms, basis, spacing, eps_tol = CASES[request.param]
-    mol = gto.M(atom=[(s, tuple(p)) for s, p in atoms], basis=basis, unit="Bohr", verbose=0)
-    mf = scf.RHF(mol)
-    mf.conv_tol = 1e-10
-    mf.kernel()
-    assert mf.converged
-    dm = mf.make_rdm1()
-    pos = mol.atom_coords()
-    origin, axes, shape = grid_box(pos, spacing=spacing, margin=3.0)
-    pts = origin + np.indices(shape).reshape(3, -1).T @ axes
-    ao = mol.eval_gto("GTOval_sph", pts)
-    rho = np.einsum("pi,ij,pj->p", ao, dm, ao).reshape(shape)
-    rho = np.array([float(f"{v:.5e}") for v in rho.ravel()]).reshape(shape)   # cube precision
-    z = mol.atom_charges()
-    grid = DensityGrid(rho, origin, axes, z, z.astype(float), pos)
+    mol, dm, grid = ref.scf_density_grid(atoms, basis=basis, spacing=spacing, digits=5)
+    pos = grid.positions
     reference = ref.critical_points(ref.AnalyticDensity(mol, dm), pos, nuclear_radius=0.2)
     return {"name": request.param, "grid": grid, "reference": reference, "eps_tol": eps_tol}
 

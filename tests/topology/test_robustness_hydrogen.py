@@ -25,10 +25,7 @@ import numpy as np
 import pytest
 
 pytest.importorskip("pyscf")
-from pyscf import gto, scf  # noqa: E402
 
-from trackscan.grid import DensityGrid  # noqa: E402
-from trackscan.promolecule import grid_box  # noqa: E402
 from trackscan.topology import analyze_frame  # noqa: E402
 
 _REF = Path(__file__).resolve().parents[1] / "tracking" / "analytic_reference.py"
@@ -62,21 +59,10 @@ def _analytic_maxima(field, coords):
 @pytest.fixture(scope="module", params=sorted(CASES))
 def case(request):
     atoms, charge, spacing = CASES[request.param]
-    mol = gto.M(atom=[(s, tuple(np.asarray(p, float) + SHIFT)) for s, p in atoms],
-                basis="sto-3g", charge=charge, unit="Bohr", verbose=0)
-    mf = scf.RHF(mol)
-    mf.conv_tol = 1e-10
-    mf.kernel()
-    assert mf.converged
-    dm = mf.make_rdm1()
-    pos = mol.atom_coords()
-    origin, axes, shape = grid_box(pos, spacing=spacing, margin=3.0)
-    pts = origin + np.indices(shape).reshape(3, -1).T @ axes
-    ao = mol.eval_gto("GTOval_sph", pts)
-    rho = np.einsum("pi,ij,pj->p", ao, dm, ao).reshape(shape)
-    rho = np.array([float(f"{v:.5e}") for v in rho.ravel()]).reshape(shape)   # cube precision
-    z = mol.atom_charges()
-    grid = DensityGrid(rho, origin, axes, z, z.astype(float), pos)
+    mol, dm, grid = ref.scf_density_grid([(s, np.asarray(p, float) + SHIFT) for s, p in atoms],
+                                         basis="sto-3g", charge=charge, spacing=spacing,
+                                         digits=5)
+    pos = grid.positions
     field = ref.AnalyticDensity(mol, dm)
     maxima = _analytic_maxima(field, pos)
     cps = [cp for cp in ref.critical_points(field, pos)
@@ -89,7 +75,7 @@ def case(request):
     pairs = sorted(tuple(sorted(int(e) + 1 for e in ends[2 * k:2 * k + 2]))
                    for k in range(len(bonds)))
     return {"name": request.param, "grid": grid, "cps": cps, "pairs": pairs,
-            "offsets": np.linalg.norm(maxima - pos, axis=1), "numbers": z}
+            "offsets": np.linalg.norm(maxima - pos, axis=1), "numbers": grid.numbers}
 
 
 def test_reference_hydrogen_maxima_lie_off_the_nuclei(case):

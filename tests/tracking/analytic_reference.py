@@ -205,3 +205,45 @@ def found_changes(scan):
         out.append({"between": c["between"], "bracket": c["bracket"], "broken": sorted(broken),
                     "formed": sorted(formed), "rings": rings})
     return out
+
+
+def scf_density_grid(atoms, *, basis, spacing, margin=3.0, charge=0, digits=None):
+    """RHF density of a small molecule, sampled on a box grid as a DensityGrid.
+
+    Parameters
+    ----------
+    atoms : list of (symbol, (x, y, z)) in bohr
+    basis : str
+    spacing, margin : float, bohr (the box of ``trackscan.promolecule.grid_box``)
+    charge : int
+    digits : int, optional
+        Round each value to this many digits after the point in ``%e``
+        notation, as a cube file prints them (5 is customary).
+
+    Returns
+    -------
+    mol, dm, grid
+        The PySCF molecule, its converged density matrix, the sampled grid.
+    """
+    from pyscf import gto, scf
+
+    from trackscan.grid import DensityGrid
+    from trackscan.promolecule import grid_box
+
+    mol = gto.M(atom=[(s, tuple(float(x) for x in p)) for s, p in atoms], basis=basis,
+                charge=charge, unit="Bohr", verbose=0)
+    mf = scf.RHF(mol)
+    mf.conv_tol = 1e-10
+    mf.kernel()
+    assert mf.converged
+    dm = mf.make_rdm1()
+    pos = mol.atom_coords()
+    origin, axes, shape = grid_box(pos, spacing=spacing, margin=margin)
+    pts = origin + np.indices(shape).reshape(3, -1).T @ axes
+    ao = mol.eval_gto("GTOval_sph", pts)
+    rho = np.einsum("pi,ij,pj->p", ao, dm, ao).reshape(shape)
+    if digits is not None:
+        rho = np.array([float(f"{v:.{digits}e}") for v in rho.ravel()]).reshape(shape)
+    z = mol.atom_charges()
+    return mol, dm, DensityGrid(rho, origin, axes, z, z.astype(float), pos)
+
