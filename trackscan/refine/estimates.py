@@ -32,7 +32,7 @@ from trackscan.refine.indicators import (
 from trackscan.refine.loop import change_context
 from trackscan.refine.proposals import bisection_count, fit_fold
 
-__all__ = ["annotate_changes", "quoted_uncertainty", "MODEL_SAFETY"]
+__all__ = ["annotate_changes", "quoted_uncertainty", "resolution_limit", "MODEL_SAFETY"]
 
 #: Factor on a model's own error estimate (the change of the estimate when
 #: the interpolation order drops by one).  That difference measures the
@@ -174,9 +174,37 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None,
             info["tolerance"] = float(tolerance)
             info["converged"] = bool(width <= tolerance)
             info["bisection_evaluations"] = bisection_count(w0, tolerance)
-        out.append(dataclasses.replace(
+        new = dataclasses.replace(
             ch, evaluations=ctx.evaluations, estimate=float(estimate), estimate_method=method,
             uncertainty=quoted_uncertainty(0.5 * width, model_error=model_error,
                                            resolution=resolution),
-            refine=info))
+            refine=info)
+        if tolerance is not None and not info["converged"]:
+            lim = resolution_limit(new)
+            if lim is not None:
+                info["resolution_limit"] = float(lim)
+        out.append(new)
     return tuple(out)
+
+
+def resolution_limit(change) -> float | None:
+    """The ± below which new frames cannot narrow an annotated change, or None.
+
+    A change is limited by its grids when half its bracket is within the
+    resolution term (the grid's own catastrophe can lie anywhere inside it).
+    Without a resolution term (no fold indicator), a change whose frames
+    beside the bracket are below what the grids resolve
+    (``resolution_limited``) is limited at its quoted ±.  Returns that limit
+    (coordinate units), or None when more frames still help.  (The density
+    difference of a fold pair falls as the cube of its separation, so the
+    pair can be below the density floor while its separation, which places
+    the fold, is still well resolved: the resolution term decides.)
+    """
+    u = change.uncertainty
+    if u is None:
+        return None
+    if u.resolution is not None:
+        return u.resolution if u.half_width <= u.resolution else None
+    if change.resolution_limited:
+        return u.value
+    return None
