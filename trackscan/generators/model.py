@@ -6,7 +6,7 @@ import logging
 from pathlib import Path
 
 from trackscan.generators.base import GeneratedFrame, Generator, sibling
-from trackscan.generators.config import PromoleculeConfig
+from trackscan.io.generator_config import PromoleculeConfig
 from trackscan.io.cube import write_cube
 from trackscan.promolecule import MODEL_LABEL, promolecule_grid
 

@@ -41,6 +41,7 @@ from trackscan.coordinates import COORDINATE_KINDS, measure
 from trackscan.errors import ConfigError, InputError, ParseError
 from trackscan.io.atomic import write_text_atomic
 from trackscan.io.cube import DEFAULT_MAX_POINTS, read_cube_header
+from trackscan.io.generator_config import parse_generator_config
 from trackscan.io.keycheck import KeyChecker
 from trackscan.settings import AnalysisSettings, TrackingSettings
 from trackscan.units import UNITS_OF_KIND, angle_factor, canonical_unit, length_factor
@@ -471,9 +472,7 @@ def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
 
 
 def _parse_generator(raw, path, lines):
-    """Validate the ``generator`` section with the generators package."""
-    from trackscan.generators.config import parse_generator_config
-
+    """Validate the ``generator`` section (:mod:`trackscan.io.generator_config`)."""
     try:
         return parse_generator_config(raw, path=path)
     except ConfigError as exc:
