@@ -11,7 +11,9 @@ Hierarchy::
     ├── InputError             bad input from the user (exit code 2)
     │   ├── ParseError         a file could not be read (path, line number)
     │   ├── ConfigError        a manifest or settings key is wrong (key path)
-    │   └── ConsistencyError   frames of one scan disagree (atoms differ)
+    │   ├── ConsistencyError   frames of one scan disagree (atoms differ)
+    │   └── DegenerateDensityError  a grid with no traceable topology (constant,
+    │                          noise): refused instead of traced without end
     ├── AlgorithmError         a computation could not finish
     │   ├── ConvergenceError   an iteration did not converge
     │   └── TrackingError      frames could not be followed
@@ -28,6 +30,7 @@ __all__ = [
     "ParseError",
     "ConfigError",
     "ConsistencyError",
+    "DegenerateDensityError",
     "AlgorithmError",
     "ConvergenceError",
     "TrackingError",
@@ -37,7 +40,23 @@ __all__ = [
 
 
 class TrackscanError(Exception):
-    """Base class of every error trackscan raises on purpose."""
+    """Base class of every error trackscan raises on purpose.
+
+    Errors pickle with all their attributes (a worker process's error
+    reaches the parent with its file, line and key, not re-built from the
+    formatted message).
+    """
+
+    def __reduce__(self):
+        return (_restore, (type(self), self.args, dict(self.__dict__)))
+
+
+def _restore(cls, args, state):
+    """Rebuild a pickled trackscan error without calling its ``__init__``."""
+    obj = cls.__new__(cls)
+    obj.args = args
+    obj.__dict__.update(state)
+    return obj
 
 
 class InputError(TrackscanError):
@@ -119,6 +138,17 @@ class ConfigError(InputError):
 
 class ConsistencyError(InputError):
     """Frames of one scan disagree (different atoms, different order)."""
+
+
+class DegenerateDensityError(InputError):
+    """A density grid whose topology cannot be traced in bounded work.
+
+    Raised for a constant grid (a plateau: every point is degenerate) and
+    when the number of critical points or of gradient-path steps of one
+    frame passes its cap (:mod:`trackscan.topology.limits`), as on a grid
+    of random noise.  It is bad input (exit code 2), not a failed
+    computation.
+    """
 
 
 class AlgorithmError(TrackscanError):

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import asdict, dataclass
 
 __all__ = ["TrackingSettings"]
@@ -56,8 +57,9 @@ class TrackingSettings:
         for name in ("match_gate", "switch_penalty", "fold_gate", "significance",
                      "warning_horizon"):
             value = getattr(self, name)
-            if not isinstance(value, (int, float)) or value < 0:
-                raise ValueError(f"{name} must be a number >= 0, got {value!r}")
+            if isinstance(value, bool) or not isinstance(value, (int, float)) \
+                    or not math.isfinite(value) or value < 0:
+                raise ValueError(f"{name} must be a finite number >= 0, got {value!r}")
         if not isinstance(self.printed_digits, int) or not 1 <= self.printed_digits <= 17:
             raise ValueError(f"printed_digits must be an integer in 1..17, got {self.printed_digits!r}")
         if self.direction not in _DIRECTIONS:
