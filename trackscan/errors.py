@@ -12,7 +12,9 @@ Hierarchy::
     │   ├── ParseError         a file could not be read (path, line number)
     │   ├── ConfigError        a manifest or settings key is wrong (key path)
     │   ├── ConsistencyError   frames of one scan disagree (atoms differ)
-    │   └── ScanFormatError    a scan result or cached frame is malformed (key path)
+    │   ├── ScanFormatError    a scan result or cached frame is malformed (key path)
+    │   └── DegenerateDensityError  a grid with no traceable topology (constant,
+    │                          noise): refused instead of traced without end
     └── GeneratorError         a density source failed (program, SCF, ...)
 
 (Classes that nothing raised were removed: a class exists here when some
@@ -30,12 +32,29 @@ __all__ = [
     "ConfigError",
     "ConsistencyError",
     "ScanFormatError",
+    "DegenerateDensityError",
     "GeneratorError",
 ]
 
 
 class TrackscanError(Exception):
-    """Base class of every error trackscan raises on purpose."""
+    """Base class of every error trackscan raises on purpose.
+
+    Errors pickle with all their attributes (a worker process's error
+    reaches the parent with its file, line and key, not re-built from the
+    formatted message).
+    """
+
+    def __reduce__(self):
+        return (_restore, (type(self), self.args, dict(self.__dict__)))
+
+
+def _restore(cls, args, state):
+    """Rebuild a pickled trackscan error without calling its ``__init__``."""
+    obj = cls.__new__(cls)
+    obj.args = args
+    obj.__dict__.update(state)
+    return obj
 
 
 class InputError(TrackscanError):
@@ -121,6 +140,17 @@ class ConsistencyError(InputError):
 
 class ScanFormatError(InputError):
     """A scan result (scan.json, a cached frame) is malformed; the message names the key path."""
+
+
+class DegenerateDensityError(InputError):
+    """A density grid whose topology cannot be traced in bounded work.
+
+    Raised for a constant grid (a plateau: every point is degenerate) and
+    when the number of critical points or of gradient-path steps of one
+    frame passes its cap (:mod:`trackscan.topology.limits`), as on a grid
+    of random noise.  It is bad input (exit code 2), not a failed
+    computation.
+    """
 
 
 class GeneratorError(TrackscanError):

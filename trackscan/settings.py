@@ -14,7 +14,45 @@ from dataclasses import asdict, dataclass
 from trackscan.errors import ConfigError
 from trackscan.io.keycheck import as_number
 
-__all__ = ["AnalysisSettings", "TrackingSettings", "settings_from_mapping"]
+__all__ = ["AnalysisSettings", "TrackingSettings", "settings_from_mapping", "SETTING_RANGES"]
+
+#: Allowed range of each numeric setting: (lowest, lowest allowed?, highest).
+#: Every value must also be finite; the upper ends keep the work of one frame
+#: bounded (``maxiter``, ``max_points``) or catch unit slips (lengths in bohr).
+SETTING_RANGES = {
+    "density_floor": (0.0, True, 1e3),
+    "boundary_margin": (0.0, True, 1e3),
+    "gtol": (0.0, False, 1.0),
+    "xtol": (0.0, False, 10.0),
+    "maxiter": (1, True, 10_000),
+    "max_step": (0.0, False, 10.0),
+    "degenerate_tol": (0.0, True, 1e3),
+    "capture_radius": (0.0, False, 10.0),
+    "max_points": (64, True, 2 ** 40),
+    "nuclear_radius": (0.0, True, 5.0),
+    "seed_retries": (0, True, 2),
+}
+
+
+def setting_problem(name: str, value) -> str | None:
+    """Why `value` is not allowed for setting `name`, or None (see SETTING_RANGES)."""
+    if name not in SETTING_RANGES:
+        return None
+    lo, closed, hi = SETTING_RANGES[name]
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return f"expected a number, got {value!r}"
+    if isinstance(lo, int) and not isinstance(value, int):
+        return f"expected an integer, got {value!r}"
+    try:
+        finite = math.isfinite(value)
+    except OverflowError:
+        finite = False
+    if not finite:
+        return f"expected a finite number, got {value!r}"
+    if value < lo or (value == lo and not closed) or value > hi:
+        low = f"{'>=' if closed else '>'} {lo:g}"
+        return f"must be {low} and <= {hi:{'d' if isinstance(hi, int) else 'g'}}, got {value!r}"
+    return None
 
 
 @dataclass(frozen=True)
@@ -76,10 +114,9 @@ class AnalysisSettings:
 
     def __post_init__(self):
         for f in dataclasses.fields(self):
-            value = getattr(self, f.name)
-            if f.type in ("float", float) and isinstance(value, (int, float)) \
-                    and not isinstance(value, bool) and value < 0:
-                raise ValueError(f"{f.name} must be >= 0, got {value}")
+            problem = setting_problem(f.name, getattr(self, f.name))
+            if problem is not None:
+                raise ValueError(f"{f.name} {problem}")
 
     @classmethod
     def from_mapping(cls, mapping, *, path=None, key_prefix: str = "analysis",
@@ -144,6 +181,9 @@ def settings_from_mapping(cls, mapping, *, path=None, key_prefix: str, **overrid
             hint = f" (did you mean {close[0]!r}?)" if close else ""
             raise ConfigError(f"unknown setting{hint}", path, where)
         kwargs[key] = _coerce(value, fields[key].type, path, where)
+        problem = setting_problem(key, kwargs[key])
+        if problem is not None:
+            raise ConfigError(problem, path, where)
     try:
         return cls(**kwargs)
     except ValueError as exc:
