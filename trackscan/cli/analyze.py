@@ -9,6 +9,10 @@ cube file's content, the analysis settings and the trackscan version, so a
 rerun analyses only new or changed frames.  The same input gives the same
 scan.json, byte for byte.  --dask ADDRESS runs the frame analyses on a
 dask.distributed scheduler instead of local processes.
+
+One run at a time writes into DIR (and generates into a frames folder): a
+second run stops at once with one line (exit code 2).  trackscan replaces
+only files it wrote there (listed in DIR/.trackscan-output).
 """
 
 from __future__ import annotations
@@ -19,7 +23,7 @@ from pathlib import Path
 
 from trackscan.analysis import analyze_scan, write_scan
 from trackscan.io.manifest import load_manifest
-from trackscan.io.output import prepare_output_dir
+from trackscan.io.output import open_output_dir
 from trackscan.progress import TextProgress
 from trackscan.tracking import describe_change
 
@@ -79,16 +83,16 @@ def run(args) -> int:
     from trackscan.report import write_report
 
     manifest = load_manifest(args.manifest)
-    out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
-    progress = TextProgress()
-    scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress,
-                        dask=args.dask)
-    # frames made by an earlier refine keep their estimates and evaluation counts
-    scan = annotate_scan(manifest, scan)
-    path = out / "scan.json"
-    write_scan(path, scan)
-    files = write_report(path, out, source_dir=manifest.base_dir, progress=progress)
-    progress.close()
+    with open_output_dir(args.out if args.out else Path("reports") / manifest.name) as out:
+        progress = TextProgress()
+        scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress,
+                            dask=args.dask)
+        # frames made by an earlier refine keep their estimates and evaluation counts
+        scan = annotate_scan(manifest, scan)
+        path = out / "scan.json"
+        write_scan(path, scan)
+        files = write_report(path, out, source_dir=manifest.base_dir, progress=progress)
+        progress.close()
     for line in summary_lines(scan):
         print(line)
     print(f"wrote {os.fspath(path)} and {os.fspath(files.html)}")

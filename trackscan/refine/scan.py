@@ -83,17 +83,18 @@ def _describe_frames(manifest, entries, frames, *, suggested=None):
 
 
 def load_frames(manifest, *, backend=None, cache_dir=None, suggested_dir=None,
-                progress=None) -> list:
+                progress=None, generator=None) -> list:
     """Analysed frame dicts of every frame of the manifest (cached).
 
     Frames listed by value only are generated first
     (:func:`trackscan.analysis.scan.ensure_frames`); recorded refine frames
     get their ``refine`` bookkeeping back.
     """
-    from trackscan.analysis.scan import ensure_frames
+    from trackscan.analysis.scan import prepare_frames
 
     backend = backend or LocalBackend()
-    ensure_frames(manifest, progress=progress)
+    # (frames an interrupted run finished are adopted first, and listed)
+    manifest = prepare_frames(manifest, progress=progress, generator=generator)[0]
     entries = list(manifest.frames)
     frames = backend.analyse([e.file for e in entries], manifest.analysis,
                              periodic=manifest.periodic, cache_dir=cache_dir, progress=progress)
@@ -156,33 +157,24 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
                              "use --suggest to get the values and geometries instead",
                              manifest.path)
         generator = make_generator(manifest.generator, coordinate=manifest.coordinate)
-        config = manifest.generator
-    else:
-        config = None
     backend = backend or LocalBackend(jobs)
     cache_dir = None if out_dir is None else Path(out_dir) / ".cache"
     folder = Path(manifest.frames_directory)
-    frames = load_frames(manifest, backend=backend, cache_dir=cache_dir, progress=progress)
+    check = getattr(generator, "check", None)
+    if check is not None:
+        check()
+    frames = load_frames(manifest, backend=backend, cache_dir=cache_dir, progress=progress,
+                         generator=generator)
 
     def evaluate(probes):
-        tasks = [(p.value, os.fspath(folder / generated_frame_name(p.value)), os.fspath(folder))
-                 for p in probes]
-        folder.mkdir(parents=True, exist_ok=True)
-        made = [None] * len(probes)
-        errors = []
-        for i, out, exc in backend.generate(tasks, generator=generator, config=config,
-                                            coordinate=manifest.coordinate):
-            if exc is not None:
-                errors.append(exc)
-                continue
-            made[i] = out
-            record_generated_frame(manifest, {"file": Path(tasks[i][1]).name,
-                                              "value": probes[i].value, "energy": out.energy,
-                                              REFINE_KEY: probes[i].meta})
-            logger.info("new frame at %g: %s", probes[i].value, tasks[i][1])
-        if errors:
-            # the frames that did finish are recorded: a rerun will not repeat them
-            raise errors[0]
+        from trackscan.analysis.generate import FrameTask, generate_frames
+
+        tasks = [FrameTask(float(p.value), folder / generated_frame_name(p.value),
+                           {REFINE_KEY: p.meta}) for p in probes]
+        # made and recorded as each finishes; the first failure is raised after
+        made = generate_frames(manifest, tasks, generator=generator, run=backend.generate,
+                               progress=None)
+        tasks = [(t.value, os.fspath(t.path)) for t in tasks]
         new = backend.analyse([t[1] for t in tasks], manifest.analysis,
                               periodic=manifest.periodic, cache_dir=cache_dir)
         for p, t, out, f in zip(probes, tasks, made, new):
