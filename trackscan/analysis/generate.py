@@ -52,7 +52,7 @@ from trackscan.errors import InputError
 from trackscan.io.atomic import remove_stale_temporaries
 from trackscan.io.folderlock import try_folder_lock
 from trackscan.io.manifest import RECORD_NAME, read_frame_record, update_frame_record
-from trackscan.io.ownership import MARKER, guard_folder
+from trackscan.io.ownership import MARKER, ForeignFileError, guard_folder, load_or_new
 from trackscan.progress import report
 
 __all__ = ["FrameTask", "generate_frames", "tidy_frames_folder", "run_local",
@@ -354,6 +354,7 @@ def generate_frames(manifest, tasks, *, generator, jobs: int = 1, run=None,
     total = len(tasks)
     done = [0]
     errors = []
+    _refuse_foreign_files(folder, tasks, generator)     # before anything is written
     with guard_folder(folder, purpose="the frames") as own:
         _tidy_locked(folder, generator)
         todo = []
@@ -413,6 +414,31 @@ def generate_frames(manifest, tasks, *, generator, jobs: int = 1, run=None,
         # every finished frame is recorded: a rerun will not repeat it
         raise errors[0]
     return made
+
+
+def _refuse_foreign_files(folder: Path, tasks, generator) -> None:
+    """Raise ForeignFileError for a geometry or log file trackscan would replace.
+
+    A first pass without the lock, so that a folder of someone else's
+    files is refused before trackscan writes anything into it (the claims
+    under the lock check again).
+    """
+    own = load_or_new(folder) if folder.is_dir() else None
+
+    def ours(path):
+        rel = None if own is None else own.relative(path)
+        return rel is not None and own.owns(rel)
+
+    for t in tasks:
+        cube = Path(t.path)
+        if cube.is_file() and _usable_cube(cube, t.value, generator, strict=not ours(cube)):
+            continue                                     # adopted: nothing is written
+        for path in [cube] + [_sidecar(cube, s) for s in _SIDECARS]:
+            if not os.path.lexists(path) or ours(path):
+                continue
+            raise ForeignFileError("trackscan did not write this file and will not replace "
+                                   "it (move it away or choose another frames directory; "
+                                   "nothing was written)", path)
 
 
 def _name(folder: Path, task: FrameTask) -> str:

@@ -234,8 +234,8 @@ def guard_folder(folder, *, output_folder: bool = False, purpose: str = "its fil
     """
     with folder_lock(folder, purpose=purpose):
         own = load_or_new(folder, output_folder=output_folder)
-        if not (Path(folder) / MARKER).is_file() or output_folder:
-            own.save()
+        if output_folder:
+            own.save()                  # (other folders get a marker with their first file)
         guard = _Guard(own)
         atomic.add_write_guard(guard)
         try:
