@@ -200,6 +200,10 @@ def load_or_new(folder, *, output_folder: bool = False) -> FolderOwnership:
     return own
 
 
+#: Folders guarded by this process: real path -> [FolderOwnership, guard, depth].
+_ACTIVE: dict = {}
+
+
 class _Guard:
     """Hook for :func:`trackscan.io.atomic.atomic_open`: claims paths in one folder."""
 
@@ -233,15 +237,26 @@ def guard_folder(folder, *, output_folder: bool = False, purpose: str = "its fil
         Another trackscan run holds the folder.
     """
     with folder_lock(folder, purpose=purpose):
-        own = load_or_new(folder, output_folder=output_folder)
-        if output_folder:
+        key = _real(folder)
+        active = _ACTIVE.get(key)
+        if active is not None:              # nested (e.g. the frames folder is --out): share
+            own, guard = active[0], active[1]
+            active[2] += 1
+        else:
+            own = load_or_new(folder, output_folder=output_folder)
+            guard = _Guard(own)
+            _ACTIVE[key] = [own, guard, 1]
+            atomic.add_write_guard(guard)
+        if output_folder and not (own.output_folder and (Path(folder) / MARKER).is_file()):
+            own.output_folder = True
             own.save()                  # (other folders get a marker with their first file)
-        guard = _Guard(own)
-        atomic.add_write_guard(guard)
         try:
             yield own
         finally:
-            atomic.remove_write_guard(guard)
+            _ACTIVE[key][2] -= 1
+            if _ACTIVE[key][2] == 0:
+                del _ACTIVE[key]
+                atomic.remove_write_guard(guard)
 
 
 def claim_path(path) -> None:

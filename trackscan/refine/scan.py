@@ -3,11 +3,12 @@
 ``refine_manifest(manifest, tolerance=...)`` analyses the scan's frames,
 runs the refine loop (:func:`trackscan.refine.loop.refine_frames`) with the
 manifest's generator, and returns the scan.json dict with every change's
-estimate, method, evaluations and uncertainty.  Each new cube is written
-to the frames folder and entered in its ``record.json``
-(:func:`trackscan.io.manifest.record_generated_frame`, atomic) before the loop takes its next
-step, so a refine that stops half way (an error, a killed job) resumes where
-it stopped when rerun: :func:`trackscan.io.manifest.load_manifest` merges the
+estimate, method, evaluations and uncertainty.  Each new cube is made by
+:func:`trackscan.analysis.generate.generate_frames` (the path ``analyze``
+uses too): entered in the frames folder's ``record.json`` as pending before
+it starts, recorded as finished the moment it is, and adopted on the next
+start if the run died in between, so a refine that stops half way (an
+error, SIGINT/SIGTERM, a killed job) resumes where it stopped when rerun: :func:`trackscan.io.manifest.load_manifest` merges the
 recorded frames, their analyses come from the cache, and the loop makes the
 proposal it would have made next.
 
