@@ -46,7 +46,23 @@ def _refine(folder, jobs, budget):
            str(folder / "scan.yaml"), "--tolerance", "1e-3", "--jobs", str(jobs),
            "--max-evaluations", str(budget), "--out", str(folder.parent / "out")]
     return subprocess.Popen(cmd, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
-                            text=True)
+                            text=True, start_new_session=True)
+
+
+def _session(sid):
+    """Live processes of session `sid` (the refine run and all it started)."""
+    found = []
+    for entry in os.listdir("/proc"):
+        if not entry.isdigit():
+            continue
+        try:
+            with open(f"/proc/{entry}/stat") as fh:
+                fields = fh.read().rsplit(")", 1)[1].split()
+        except OSError:
+            continue
+        if fields[0] != "Z" and int(fields[3]) == sid:
+            found.append(int(entry))
+    return found
 
 
 def _wait(predicate, proc, what, timeout=90.0):
@@ -135,6 +151,11 @@ def test_jobs2_sigkill_workers_exit(scan):
     workers = {p for _, _, p in _events(scan)} - {proc.pid}
     assert workers                                # the calls ran in worker processes
     assert _gone(workers)                         # they notice the parent is gone and exit
+    # and nothing else of the run stays behind (fork server, resource tracker)
+    t0 = time.monotonic()
+    while _session(proc.pid) and time.monotonic() - t0 < 8:
+        time.sleep(0.1)
+    assert _session(proc.pid) == []
     finished = {v for w, v, _ in _events(scan) if w == "renamed"}
     _rerun_without_repeats(scan, finished, 4)
 

@@ -55,7 +55,7 @@ from trackscan.io.manifest import RECORD_NAME, read_frame_record, update_frame_r
 from trackscan.io.ownership import MARKER, ForeignFileError, guard_folder, load_or_new
 from trackscan.progress import report
 
-__all__ = ["FrameTask", "generate_frames", "tidy_frames_folder", "run_local",
+__all__ = ["FrameTask", "generate_frames", "tidy_frames_folder", "run_local", "watch_parent",
            "PARENT_POLL", "STOP_GRACE", "ADOPT_POSITION_TOLERANCE", "PARTIAL_PREFIX"]
 
 logger = logging.getLogger(__name__)
@@ -135,12 +135,21 @@ def _watch_parent(parent_pid: int, ppid: int) -> None:
             os._exit(1)
 
 
+def watch_parent(parent_pid: int) -> None:
+    """Worker initializer: SIGTERM this process when `parent_pid` (or the fork server) dies.
+
+    Also used by the analysis workers (:mod:`trackscan.analysis.runner`),
+    which simply end on SIGTERM.
+    """
+    threading.Thread(target=_watch_parent, args=(parent_pid, os.getppid()), daemon=True,
+                     name="trackscan-parent-watch").start()
+
+
 def _init_worker(parent_pid: int) -> None:
     """Worker start: the parent decides about SIGINT; SIGTERM stops the call; watch the parent."""
     signal.signal(signal.SIGINT, lambda signum, frame: None)
     signal.signal(signal.SIGTERM, _on_sigterm)
-    threading.Thread(target=_watch_parent, args=(parent_pid, os.getppid()), daemon=True,
-                     name="trackscan-parent-watch").start()
+    watch_parent(parent_pid)
 
 
 def _generate_in_worker(generator, value: float, path: str, workdir: str):
