@@ -370,10 +370,10 @@ def generate_frames(manifest, tasks, *, generator, jobs: int = 1, run=None,
         adopted = []
         for i, t in enumerate(tasks):
             cube = Path(t.path)
-            rel = own.relative(cube)
             if cube.is_file():
-                ours = rel is not None and own.owns(rel)
-                if _usable_cube(cube, t.value, generator, strict=not ours):
+                # a cube at the value with the generator's very geometry is used as it is
+                # (pending frames of a stopped run were adopted by the tidy-up above)
+                if _usable_cube(cube, t.value, generator, strict=True):
                     xyz = _sidecar(cube, ".xyz")
                     made[i] = GeneratedFrame(cube, float(t.value), None, True,
                                              xyz if xyz.is_file() else None)
@@ -440,7 +440,7 @@ def _refuse_foreign_files(folder: Path, tasks, generator) -> None:
 
     for t in tasks:
         cube = Path(t.path)
-        if cube.is_file() and _usable_cube(cube, t.value, generator, strict=not ours(cube)):
+        if cube.is_file() and _usable_cube(cube, t.value, generator, strict=True):
             continue                                     # adopted: nothing is written
         for path in [cube] + [_sidecar(cube, s) for s in _SIDECARS]:
             if not os.path.lexists(path) or ours(path):

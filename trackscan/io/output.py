@@ -97,7 +97,6 @@ def _remove_stale_temporaries(folder: Path) -> None:
     """Delete temporary files an interrupted earlier run left (the folder is locked)."""
     from trackscan.io.atomic import remove_stale_temporaries
 
-    remove_stale_temporaries(folder)
-    cache = folder / ".cache"
-    if cache.is_dir():
-        remove_stale_temporaries(cache)
+    for sub in (folder, folder / ".cache", folder / "suggested"):
+        if sub.is_dir():
+            remove_stale_temporaries(sub)

@@ -100,14 +100,13 @@ class FolderOwnership:
             or top in self.inherited
 
     # -- claiming ----------------------------------------------------------
-    def claim(self, path, *, replace_ok: bool = False) -> None:
+    def claim(self, path) -> None:
         """Check that trackscan may write `path`, and list it (saved at once).
 
         Raises
         ------
         ForeignFileError
-            `path` exists and trackscan did not write it (unless
-            `replace_ok`).
+            `path` exists and trackscan did not write it.
         """
         rel = self.relative(path)
         if rel is None or rel in _INTERNAL:
@@ -118,7 +117,7 @@ class FolderOwnership:
         name = rel
         if "/" in rel and not os.path.lexists(self.folder / top):
             name = top                      # trackscan makes this subfolder: all of it is its
-        elif os.path.lexists(path) and not replace_ok:
+        elif os.path.lexists(path):
             raise ForeignFileError("trackscan did not write this file and will not replace it "
                                    "(move it away or choose another folder; nothing was "
                                    "written)", path)
@@ -140,8 +139,12 @@ class FolderOwnership:
         """Write the marker (atomically; it is never checked itself)."""
         data = {"written_by": "trackscan", "output_folder": self.output_folder,
                 "files": sorted(self.files)}
-        atomic.write_text_atomic(self.folder / MARKER,
-                                 json.dumps(data, indent=1, sort_keys=True) + "\n")
+        try:
+            atomic.write_text_atomic(self.folder / MARKER,
+                                     json.dumps(data, indent=1, sort_keys=True) + "\n")
+        except OSError as exc:
+            raise InputError(f"cannot write into this folder ({exc.strerror})",
+                             self.folder) from None
 
 
 def _record_names(folder: Path) -> set:
