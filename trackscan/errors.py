@@ -11,11 +11,12 @@ Hierarchy::
     ├── InputError             bad input from the user (exit code 2)
     │   ├── ParseError         a file could not be read (path, line number)
     │   ├── ConfigError        a manifest or settings key is wrong (key path)
-    │   └── ConsistencyError   frames of one scan disagree (atoms differ)
-    ├── AlgorithmError         a computation could not finish
-    │   ├── ConvergenceError   an iteration did not converge
-    │   └── TrackingError      frames could not be followed
+    │   ├── ConsistencyError   frames of one scan disagree (atoms differ)
+    │   └── ScanFormatError    a scan result or cached frame is malformed (key path)
     └── GeneratorError         a density source failed (program, SCF, ...)
+
+(Classes that nothing raised were removed: a class exists here when some
+code raises it.)
 """
 
 from __future__ import annotations
@@ -28,11 +29,8 @@ __all__ = [
     "ParseError",
     "ConfigError",
     "ConsistencyError",
-    "AlgorithmError",
-    "ConvergenceError",
-    "TrackingError",
+    "ScanFormatError",
     "GeneratorError",
-    "TrackscanWarning",
 ]
 
 
@@ -121,35 +119,9 @@ class ConsistencyError(InputError):
     """Frames of one scan disagree (different atoms, different order)."""
 
 
-class AlgorithmError(TrackscanError):
-    """A computation could not finish."""
-
-
-class ConvergenceError(AlgorithmError):
-    """An iteration did not converge.
-
-    Parameters
-    ----------
-    message : str
-        What did not converge.
-    n_iter : int, optional
-        Iterations spent.
-    """
-
-    def __init__(self, message: str, n_iter: int | None = None):
-        self.n_iter = n_iter
-        if n_iter is not None:
-            message = f"{message} (after {n_iter} iterations)"
-        super().__init__(message)
-
-
-class TrackingError(AlgorithmError):
-    """Frames of a scan could not be followed."""
+class ScanFormatError(InputError):
+    """A scan result (scan.json, a cached frame) is malformed; the message names the key path."""
 
 
 class GeneratorError(TrackscanError):
     """A density source (external program, SCF, model) failed."""
-
-
-class TrackscanWarning(UserWarning):
-    """Warning category for results that are usable but doubtful."""

@@ -21,7 +21,7 @@ import pytest
 
 from trackscan.cli import main
 from trackscan.generators import make_generator
-from trackscan.generators.config import DEFAULT_TIMEOUT, parse_generator_config
+from trackscan.io.generator_config import DEFAULT_TIMEOUT, parse_generator_config
 from trackscan.io.cube import read_cube
 
 REPO = Path(__file__).resolve().parent.parent.parent
@@ -153,7 +153,7 @@ def test_daemonised_grandchild_is_not_waited_for(scan):
 _MEASURE = textwrap.dedent('''
     import resource, sys
     from trackscan.generators import make_generator
-    from trackscan.generators.config import parse_generator_config
+    from trackscan.io.generator_config import parse_generator_config
     cfg = {"geometry": {"xyz": "start.xyz", "drive": {"distance": [1, 2]}},
            "command": [sys.executable, "qc.py", "MODE", "{value}", "{xyz}", "{cube}"]}
     ok = make_generator(parse_generator_config(dict(cfg, command=[

@@ -17,7 +17,7 @@ so a failure leaves the scan as it was.
 The program runs under a small watchdog (:mod:`trackscan.generators.watchdog`)
 as the leader of its own process group, so that trackscan can always stop
 all of it: on a timeout (``generator.timeout`` seconds, default
-:data:`~trackscan.generators.config.DEFAULT_TIMEOUT`, 24 hours), when
+:data:`~trackscan.io.generator_config.DEFAULT_TIMEOUT`, 24 hours), when
 trackscan is interrupted (SIGINT, SIGTERM), and when trackscan dies (even by
 SIGKILL: the watchdog notices within a fraction of a second).  Helpers the
 program leaves running in its group are stopped when it exits; trackscan
@@ -46,7 +46,7 @@ import numpy as np
 
 from trackscan.errors import ConfigError, GeneratorError, InputError
 from trackscan.generators.base import GeneratedFrame, Generator, sibling
-from trackscan.generators.config import CommandConfig
+from trackscan.io.generator_config import CommandConfig
 from trackscan.io.cube import read_cube
 
 __all__ = ["CommandGenerator"]

@@ -6,7 +6,7 @@ import logging
 from pathlib import Path
 
 from trackscan.generators.base import GeneratedFrame, Generator, sibling
-from trackscan.generators.config import PromoleculeConfig
+from trackscan.io.generator_config import PromoleculeConfig
 from trackscan.io.cube import write_cube
 from trackscan.promolecule import MODEL_LABEL, promolecule_grid
 
@@ -30,8 +30,6 @@ class PromoleculeGenerator(Generator):
     quantum-chemical one; :meth:`describe` and the cube's first comment
     line say so.
     """
-
-    is_model = True
 
     def __init__(self, drive, options: PromoleculeConfig = PromoleculeConfig()):
         if drive is None:

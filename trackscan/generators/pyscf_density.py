@@ -34,7 +34,7 @@ import numpy as np
 from trackscan.elements import symbol
 from trackscan.errors import ConfigError, GeneratorError, InputError
 from trackscan.generators.base import GeneratedFrame, Generator, sibling
-from trackscan.generators.config import PySCFConfig
+from trackscan.io.generator_config import PySCFConfig
 from trackscan.io.atomic import write_bytes_atomic
 from trackscan.io.cube import read_cube
 from trackscan.units import BOHR_IN_ANGSTROM

@@ -41,9 +41,10 @@ from trackscan.coordinates import COORDINATE_KINDS, measure
 from trackscan.errors import ConfigError, InputError, ParseError
 from trackscan.io.atomic import write_text_atomic
 from trackscan.io.cube import DEFAULT_MAX_POINTS, read_cube_header
+from trackscan.io.generator_config import parse_generator_config
 from trackscan.io.keycheck import KeyChecker
-from trackscan.settings import AnalysisSettings
-from trackscan.units import BOHR_IN_ANGSTROM
+from trackscan.settings import AnalysisSettings, TrackingSettings
+from trackscan.units import UNITS_OF_KIND, angle_factor, canonical_unit, length_factor
 
 __all__ = ["ScanManifest", "Coordinate", "FrameEntry", "load_manifest",
            "read_frame_record", "record_generated_frame", "update_frame_record",
@@ -52,7 +53,8 @@ __all__ = ["ScanManifest", "Coordinate", "FrameEntry", "load_manifest",
 RECORD_NAME = "record.json"
 """File name of the record of generated frames, in the frames directory."""
 
-_TOP_KEYS = ("name", "description", "coordinate", "frames", "periodic", "analysis", "generator")
+_TOP_KEYS = ("name", "description", "coordinate", "frames", "periodic", "analysis", "tracking",
+             "generator")
 _COORD_KEYS = ("label", "unit") + tuple(COORDINATE_KINDS)
 _FRAME_KEYS = ("file", "value", "energy")
 _FRAMES_MAP_KEYS = ("glob", "values", "directory")
@@ -84,9 +86,9 @@ class Coordinate:
         if self.kind is None:
             raise ValueError("coordinate has no measured definition")
         v = measure(self.kind, self.atoms, positions)
-        if self.kind == "distance" and self.unit.lower() in ("angstrom", "å", "a", "ang"):
-            return v * BOHR_IN_ANGSTROM
-        return v
+        if self.kind == "distance":
+            return v / length_factor(self.unit)
+        return v / angle_factor(self.unit)
 
     def to_dict(self) -> dict:
         d = {"label": self.label, "unit": self.unit}
@@ -131,6 +133,8 @@ class ScanManifest:
         Sorted by coordinate value.
     periodic : bool
     analysis : AnalysisSettings
+    tracking : TrackingSettings
+        The ``tracking`` section (matching gates, significance, direction).
     generator : object or None
         Parsed ``generator`` section (see :mod:`trackscan.generators`).
     generator_raw : dict or None
@@ -146,6 +150,7 @@ class ScanManifest:
     frames: tuple
     periodic: bool = False
     analysis: AnalysisSettings = field(default_factory=AnalysisSettings)
+    tracking: TrackingSettings = field(default_factory=TrackingSettings)
     generator: object = None
     generator_raw: dict | None = None
     frames_directory: Path | None = None
@@ -232,6 +237,9 @@ def _coordinate(data, chk: KeyChecker) -> Coordinate:
     unit = chk.string(data["unit"], "coordinate.unit") if "unit" in data else default_unit
     if not unit:
         chk.fail("coordinate.unit", "required when the coordinate has no measured definition")
+    if kind and canonical_unit(unit) not in UNITS_OF_KIND[kind]:
+        chk.fail("coordinate.unit", f"a measured {kind} is in "
+                                    f"{' or '.join(UNITS_OF_KIND[kind])}, got {unit!r}")
     if "label" in data:
         label = chk.string(data["label"], "coordinate.label")
     elif kind:
@@ -322,7 +330,7 @@ def update_frame_record(directory, *, put=(), remove=()) -> Path:
 
 
 def _frames(data, chk: KeyChecker, base: Path, coord: Coordinate, has_generator: bool,
-            max_points: int):
+            max_points: int, direction: str = "auto"):
     entries = []
     frames_dir = base / "frames"
     if isinstance(data, dict):
@@ -375,6 +383,11 @@ def _frames(data, chk: KeyChecker, base: Path, coord: Coordinate, has_generator:
             entries.append(FrameEntry(file, value, energy))
     else:
         chk.fail("frames", f"expected a list of frames, a glob or values, got {type(data).__name__}")
+    listed = [e.value for e in entries]
+    if direction == "auto":
+        # frames listed with strictly falling values run the scan downwards
+        direction = ("descending" if len(listed) > 1 and
+                     all(x > y for x, y in zip(listed, listed[1:])) else "ascending")
     # generated frames already on disk
     known = {e.file.resolve() for e in entries}
     for rec in read_frame_record(frames_dir):
@@ -385,7 +398,7 @@ def _frames(data, chk: KeyChecker, base: Path, coord: Coordinate, has_generator:
             continue
         entries.append(FrameEntry(f, float(rec["value"]), rec.get("energy"), generated=True))
         known.add(f)
-    entries.sort(key=lambda e: (e.value, str(e.file)))
+    entries.sort(key=lambda e: (e.value, str(e.file)), reverse=direction == "descending")
     for a, b in zip(entries, entries[1:]):
         if a.value == b.value:
             raise ConfigError(f"two frames share the coordinate value {a.value:g}: "
@@ -471,6 +484,13 @@ def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
         settings = AnalysisSettings.from_mapping(analysis_raw, path=path)
     except ConfigError as exc:
         raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
+    tracking_raw = data.get("tracking") or {}
+    if not isinstance(tracking_raw, dict):
+        chk.fail("tracking", "expected a mapping of settings")
+    try:
+        tracking = TrackingSettings.from_mapping(tracking_raw, path=path)
+    except ConfigError as exc:
+        raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
     gen_raw = data.get("generator")
     generator = None
     if gen_raw is not None:
@@ -478,16 +498,15 @@ def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
         generator = _parse_generator(gen_raw, path, lines)
     ceiling = max_points if max_points is not None else settings.max_points
     frames, frames_dir = _frames(data["frames"], chk, path.parent, coord, gen_raw is not None,
-                                 ceiling or DEFAULT_MAX_POINTS)
+                                 ceiling or DEFAULT_MAX_POINTS, direction=tracking.direction)
     return ScanManifest(path=path, name=name, coordinate=coord, frames=frames, periodic=periodic,
-                        analysis=settings, generator=generator, generator_raw=gen_raw,
+                        analysis=settings, tracking=tracking, generator=generator,
+                        generator_raw=gen_raw,
                         frames_directory=frames_dir, description=description)
 
 
 def _parse_generator(raw, path, lines):
-    """Validate the ``generator`` section with the generators package."""
-    from trackscan.generators.config import parse_generator_config
-
+    """Validate the ``generator`` section (:mod:`trackscan.io.generator_config`)."""
     try:
         return parse_generator_config(raw, path=path)
     except ConfigError as exc:
