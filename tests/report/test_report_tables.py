@@ -63,16 +63,16 @@ def _check_summary(header, rows, scan):
     for row, change in zip(rows, scan["changes"]):
         lo, hi = numbers(row[col["Bracket"]])
         assert shown_equals(lo, change["bracket"][0]) and shown_equals(hi, change["bracket"][1])
-        est, model, half = numbers(row[col["Estimate ± uncertainty"]])
+        est, model = numbers(row[col["Estimate ± uncertainty"]])
         assert shown_equals(est, change["estimate"])
+        # one ± quoted: the model's error (it is below half the bracket)
         assert shown_equals(model, change["uncertainty"]["model_error"])
-        assert shown_equals(half, change["uncertainty"]["half_width"])
-        assert numbers(row[col["Evaluations"]]) == [str(change["evaluations"]),
-                                                    str(change["refine"]["bisection_evaluations"])]
+        assert numbers(row[col["New frames"]]) == [str(change["evaluations"]),
+                                                   str(change["refine"]["bisection_evaluations"])]
+        assert row[col["Frames"]] == "–".join(str(i) for i in change["between"])
         assert row[col["Mechanism"]] == change["mechanism"]
-        assert row[col["Estimate method"]] == change["estimate_method"]
-        assert "bond path C1–C2 breaks" in row[col["Events"]]
-        assert "annihilates with the bond CP" in row[col["Events"]]
+        assert "bond path C1–C2 broken" in row[col["Events"]]
+        assert "ring CP of C1–C2–C3 lost (fold with the bond CP of C1–C2)" in row[col["Events"]]
 
 
 def _check_frames(header, rows, scan):
@@ -94,8 +94,10 @@ def _check_frames(header, rows, scan):
         assert shown_equals(row[col["Energy (hartree)"]], f["energy"])
         if f["warnings"]:
             assert f["warnings"][0] in row[col["Warnings"]]
-        assert row[col["Added by"]] == (f"refinement, round {f['refine']['round']}"
-                                        if "refine" in f else "scan")
+        assert row[col["Made by"]] == (f"refinement, round {f['refine']['round']}"
+                                       if "refine" in f else "the scan")
+        assert shown_equals(row[col["Grid spacing (Å)"]],
+                            f["grid"]["spacing_bohr"][0] / ANGSTROM_IN_BOHR)
 
 
 def test_html_tables_equal_scan_json(report):
@@ -109,25 +111,29 @@ def test_html_tables_equal_scan_json(report):
     head = dict(page.tables["table-header"]["rows"])
     assert head["Scan"] == scan["scan"]["name"]
     assert head["Density source"] == scan["scan"]["density_source"]
-    assert head["Frames"] == str(len(scan["frames"]))
-    settings = dict(page.tables["table-settings"]["rows"])
+    assert head["Frames"].startswith(f"{len(scan['frames'])} (1 new frames")
+    settings = {r[0]: r for r in page.tables["table-settings"]["rows"]}
+    assert len(settings) == len(scan["scan"]["settings"])
     for key, value in scan["scan"]["settings"].items():
         if isinstance(value, bool):
-            assert settings[key] == ("yes" if value else "no")
+            assert settings[key][1] == ("yes" if value else "no")
         else:
-            assert shown_equals(settings[key], value)
+            assert shown_equals(settings[key][1], value)
+    # meaning and unit from the settings' docstrings, not the raw key
+    assert settings["gtol"][3].startswith("Newton convergence")
+    assert settings["density_floor"][2] == "a.u. (e/bohr³)"
 
 
 def test_markdown_tables_equal_scan_json(report):
     scan = report[0]
     tables = _md_tables(report)
-    summary = tables["Bracket (Å)"]
+    summary = tables["Frames"]
     _check_summary(summary["header"], summary["rows"], scan)
     frames = tables["Frame"]
     _check_frames(frames["header"], frames["rows"], scan)
 
 
-def test_coalescing_pair_table_equals_scan_json(report):
+def test_fold_pair_table_equals_scan_json(report):
     scan = report[0]
     table = _html(report).tables["table-pair1"]
     col = {h: i for i, h in enumerate(table["header"])}
@@ -135,8 +141,7 @@ def test_coalescing_pair_table_equals_scan_json(report):
     cps = {cp["id"]: cp for cp in frame["critical_points"]}
     assert len(table["rows"]) == 2
     for row in table["rows"]:
-        cp = cps[row[col["CP"]].split()[-1]]
-        assert row[col["Track"]] == cp["track"]
+        cp = next(c for c in cps.values() if c.get("track") == row[col["Track"]])
         for axis, x in zip("xyz", cp["position_bohr"]):
             assert shown_equals(row[col[f"{axis} (Å)"]], x / ANGSTROM_IN_BOHR)
         assert shown_equals(row[col["ρ (a.u.)"]], cp["rho"])
@@ -153,10 +158,12 @@ def test_early_warnings_table_equals_scan_json(report):
     rows = _html(report).tables["table-early_warnings"]["rows"]
     assert len(rows) == len(scan["early_warnings"])
     for row, w in zip(rows, scan["early_warnings"]):
-        assert row[0] == w["message"] and row[1] == "C1–C2"
-        projected = numbers(row[2].split("projected zero:")[1].split(";")[0])
-        assert len(projected) == len(w["projected"]) and all(shown_equals(x, v) for x, v in zip(projected, w["projected"].values()))
+        assert row[0] == "bond path C1–C2" and row[1] == "ellipticity rising"
+        projected = numbers(row[2].split("vanish near")[1].split(";")[0])
+        assert len(projected) == len(w["projected"])
+        assert all(shown_equals(x, v) for x, v in zip(projected, w["projected"].values()))
         assert "followed by the change between frames 1 and 2" in row[2]
+        assert "_" not in row[1] + row[2]          # no internal keys leak into the text
 
 
 def test_resolution_limit_given_for_each_change(report):
@@ -165,9 +172,9 @@ def test_resolution_limit_given_for_each_change(report):
     assert len(rows) == len(scan["changes"])
     pair = scan["changes"][0]["resolution"]["pairs"][0]
     text = rows[0][1]
-    assert "T-b12/T-r1" in text
+    assert "bond CP of C1–C2 and ring CP in frame 1" in text
     shown = numbers(text.split("apart")[0].split(":")[-1])[0]
-    assert shown_equals(shown, pair["separation_bohr"])
+    assert shown_equals(shown, pair["separation_bohr"] / ANGSTROM_IN_BOHR)
     assert "resolved" in text
 
 
@@ -193,7 +200,8 @@ def test_every_image_is_embedded_and_matches_markdown_files(report):
         assert img.get("alt")
     html_text = files.html.read_text(encoding="utf-8")
     assert "http:" not in html_text and "https:" not in html_text  # nothing from the network
-    assert not [link for link in page.links if not link.startswith("#")]
+    local = [link for link in page.links if not link.startswith("#")]
+    assert local and all((out / link).is_file() for link in local)   # the SVG and PDF files
     md = files.markdown.read_text(encoding="utf-8")
     refs = re.findall(r"!\[[^\]]*\]\(([^)]+)\)", md)
     assert len(refs) == len(embedded)
@@ -207,37 +215,71 @@ def test_csv_files_load_and_hold_scan_numbers(report):
         changes = list(csv.DictReader(fh))
     assert len(changes) == len(scan["changes"])
     for row, change in zip(changes, scan["changes"]):
-        assert float(row["bracket_low"]) == change["bracket"][0]
-        assert float(row["bracket_high"]) == change["bracket"][1]
-        assert float(row["estimate"]) == change["estimate"]
-        assert float(row["uncertainty"]) == change["uncertainty"]["model_error"]
-        assert row["uncertainty_origin"] == "model"
-        assert float(row["half_bracket"]) == pytest.approx(change["uncertainty"]["half_width"])
-        assert int(row["bisection_evaluations"]) == change["refine"]["bisection_evaluations"]
-        assert int(row["evaluations"]) == change["evaluations"]
+        assert shown_equals(row["bracket_low [angstrom]"], change["bracket"][0])
+        assert shown_equals(row["bracket_high [angstrom]"], change["bracket"][1])
+        assert shown_equals(row["estimate [angstrom]"], change["estimate"])
+        assert shown_equals(row["uncertainty [angstrom]"], change["uncertainty"]["model_error"])
+        assert row["uncertainty_source"] == "error of the model estimate"
+        assert int(row["bisection_new_frames"]) == change["refine"]["bisection_evaluations"]
+        assert int(row["new_frames"]) == change["evaluations"]
         assert row["mechanism"] == change["mechanism"]
-        assert json.loads(row["resolution"]) == change["resolution"]
+        assert row["resolved"] == "yes"
+        assert not any(cell.lstrip().startswith(("{", "[")) for cell in row.values())
     with open(files.critical_points_csv, newline="", encoding="utf-8") as fh:
-        cps = list(csv.DictReader(fh))
+        reader = csv.DictReader(fh)
+        cps = list(reader)
+    # every numeric column names its unit
+    for name in reader.fieldnames:
+        if name not in ("frame", "cp_id_in_frame", "track", "kind", "rank", "signature",
+                        "ellipticity", "atoms"):
+            assert "[" in name, name
     expected = [(f, cp) for f in sorted(scan["frames"], key=lambda f: f["index"])
                 for cp in f["critical_points"]]
     assert len(cps) == len(expected)
     for row, (f, cp) in zip(cps, expected):
-        assert int(row["frame"]) == f["index"] and float(row["coordinate"]) == f["value"]
-        assert row["id"] == cp["id"] and row["track"] == cp["track"]
+        assert int(row["frame"]) == f["index"]
+        assert shown_equals(row["coordinate [angstrom]"], f["value"])
+        assert row["cp_id_in_frame"] == cp["id"] and row["track"] == cp["track"]
         assert row["kind"] == cp["kind"]
         for axis, x in zip("xyz", cp["position_bohr"]):
-            assert float(row[f"{axis}_angstrom"]) * ANGSTROM_IN_BOHR == pytest.approx(x, abs=1e-12)
-        assert float(row["rho"]) == cp["rho"]
+            assert shown_equals(row[f"{axis} [angstrom]"], x / ANGSTROM_IN_BOHR)
+        assert float(row["rho [a.u.]"]) == pytest.approx(cp["rho"], rel=1e-5)
+
+
+def test_figures_are_written_as_png_svg_and_pdf_with_the_same_content(report):
+    import struct
+    _, files, out = report
+    assert len(files.images) >= 5 and len(files.vector_images) == 2 * len(files.images)
+    for png in files.images:
+        svg, pdf = png.with_suffix(".svg"), png.with_suffix(".pdf")
+        data = png.read_bytes()
+        assert data.startswith(PNG_SIGNATURE)
+        assert b"<svg" in svg.read_bytes()[:2000]
+        assert pdf.read_bytes().startswith(b"%PDF")
+        # 300 dpi PNG: the pHYs chunk holds pixels per metre (300 / 0.0254 = 11811)
+        i = data.index(b"pHYs")
+        assert int.from_bytes(data[i + 4:i + 8], "big") == 11811
+        # same content: the SVG and the PNG have the same aspect ratio (to 2 %)
+        w, h = struct.unpack(">II", data[16:24])
+        m = re.search(rb'width="([\d.]+)pt" height="([\d.]+)pt"', svg.read_bytes())
+        assert abs(float(m.group(1)) / float(m.group(2)) - w / h) < 0.02 * w / h
+        # one or two journal columns wide (3.35 in / 7.0 in, plus the legend's margin)
+        assert w / 300 <= 7.3
+    # the PDF keeps text as text (TrueType fonts embedded, not outlines)
+    assert b"/FontFile2" in (out / "energy.pdf").read_bytes()
 
 
 def test_minimal_scan_without_optional_keys(tmp_path):
-    scan = {"frames": [{"index": i, "value": v} for i, v in enumerate((1.0, 1.1, 1.2))]}
+    atoms = [{"number": 1, "element": "H", "Z": 1, "position_bohr": [0.0, 0.0, 0.0]}]
+    scan = {"scan": {"name": "minimal"},
+            "frames": [{"index": i, "value": v, "atoms": atoms} for i, v in
+                       enumerate((1.0, 1.1, 1.2))]}
     files = write_report(scan, tmp_path, date=None)
     page = read_html(files.html.read_text(encoding="utf-8"))
     rows = page.tables["table-frames"]["rows"]
     assert [r[0] for r in rows] == ["0", "1", "2"]
-    assert "No structural change" in files.markdown.read_text(encoding="utf-8")
+    md = files.markdown.read_text(encoding="utf-8")
+    assert "No change was found" in md and "No energies were given" in md
     with open(files.critical_points_csv, newline="") as fh:
         assert len(list(csv.reader(fh))) == 1      # header only
 
@@ -247,12 +289,16 @@ def test_rerun_without_date_is_byte_identical(tmp_path):
     b = write_report(ring_opening_scan(), tmp_path / "b", date=None)
     assert a.html.read_bytes() == b.html.read_bytes()
     assert a.markdown.read_bytes() == b.markdown.read_bytes()
+    assert len(a.vector_images) > 0
+    for x, y in zip(a.vector_images + a.images + a.geometries,
+                    b.vector_images + b.images + b.geometries):
+        assert x.read_bytes() == y.read_bytes(), x.name
 
 
 @pytest.mark.parametrize("content, error", [
     ("{not json", ParseError),
     ('{"frames": 3}', InputError),
-    ('{"frames": [{"index": 0}]}', InputError),
+    ('{"scan": {}, "frames": [{"index": 0}]}', InputError),
     ('{"frames": [], "changes": [{"bracket": [1]}]}', InputError),
 ])
 def test_bad_scan_json_is_an_input_error(tmp_path, content, error):
@@ -304,11 +350,13 @@ def test_descending_scan_keeps_scan_order(tmp_path):
         f["index"] = n - 1 - f["index"]
     ch = scan["changes"][0]
     ch.update(between=[1, 2], bracket=[1.9, 1.7], mechanism="fold",
-              events=[{"kind": "bond_formed", "atoms": [1, 2]}, {"kind": "ring_formed"}])
+              events=[{"kind": "bond_formed", "atoms": [1, 2], "track": "T-b12",
+                       "fold_with": "T-r1"},
+                      {"kind": "ring_formed", "track": "T-r1", "fold_with": "T-b12"}])
     files = write_report(scan, tmp_path, date=None)
     page = read_html(files.html.read_text(encoding="utf-8"))
     row = page.tables["table-summary"]["rows"][0]
-    assert numbers(row[1]) == ["1.900", "1.700"]
-    assert "bond path C1–C2 forms" in row[5] and "is born together with" in row[5]
+    assert numbers(row[2]) == ["1.900", "1.700"]
+    assert "bond path C1–C2 formed" in row[5] and "(fold with the bond CP of C1–C2)" in row[5]
     values = [r[1] for r in page.tables["table-frames"]["rows"]]
     assert values == ["2.100", "1.900", "1.700", "1.500"]

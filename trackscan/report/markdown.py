@@ -1,4 +1,4 @@
-"""Render the report document as Markdown (report.md), images as PNG files beside it."""
+"""Render the report document as Markdown (report.md); figures are the PNG files beside it."""
 
 from __future__ import annotations
 
@@ -31,7 +31,8 @@ def _block(b) -> str:
     if isinstance(b, Table):
         return _table(b)
     if isinstance(b, Figure):
-        return f"![{b.alt or b.name}]({image_name(b)})\n\n*{b.caption}*"
+        return (f"![{b.alt or b.name}]({image_name(b)})\n\n*{b.caption}* "
+                f"([SVG]({b.name}.svg), [PDF]({b.name}.pdf))")
     if isinstance(b, Paragraph):
         return f"> **Note.** {b.text}" if b.note else b.text
     if isinstance(b, BulletList):
