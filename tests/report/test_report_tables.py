@@ -360,3 +360,42 @@ def test_descending_scan_keeps_scan_order(tmp_path):
     assert "bond path C1–C2 formed" in row[5] and "(fold with the bond CP of C1–C2)" in row[5]
     values = [r[1] for r in page.tables["table-frames"]["rows"]]
     assert values == ["2.100", "1.900", "1.700", "1.500"]
+
+
+def test_structures_table_equals_scan_json(report):
+    scan = report[0]
+    rows = _html(report).tables["table-structures"]["rows"]
+    assert len(rows) == len(scan["structures"]) == 2
+    for row, s in zip(rows, scan["structures"]):
+        assert row[0] == str(s["number"])
+        first, last = min(s["frames"]), max(s["frames"])
+        assert row[1] == f"{first}–{last}"
+        assert int(row[3]) == len(s["bond_paths"]) and int(row[5]) == s["rings"]
+        frames = {f["index"]: f["value"] for f in scan["frames"]}
+        lo, hi = numbers(row[2])
+        assert shown_equals(lo, frames[first]) and shown_equals(hi, frames[last])
+
+
+def test_energy_densities_and_geometry_at_the_estimate_equal_scan_json(report):
+    scan, files, out = report
+    page = _html(report)
+    table = page.tables["table-energy_densities1"]
+    col = {h: i for i, h in enumerate(table["header"])}
+    frames = {f["index"]: f for f in scan["frames"]}
+    # the bond path that breaks, in the frame before (it is absent after)
+    assert len(table["rows"]) == 1
+    row = table["rows"][0]
+    cp = next(c for c in frames[1]["critical_points"] if c.get("track") == "T-b12")
+    assert row[col["Bond path"]] == "C1–C2" and row[col["Frame"]] == "1"
+    for key in ("G", "V", "H"):
+        assert shown_equals(row[col[f"{key} (a.u.)"]], cp["energy_densities"][key])
+    assert shown_equals(row[col["ρ (a.u.)"]], cp["rho"])
+    geo = page.tables["table-geometry1"]
+    first = geo["rows"][0]
+    assert shown_equals(first[1], frames[1]["value"]) and shown_equals(first[3], frames[2]["value"])
+    # C1–C2 distance: the frames' own geometry (nuclei at ±d/2), interpolated at the estimate
+    dist = next(r for r in geo["rows"] if r[0].startswith("C1–C2"))
+    assert shown_equals(dist[1], frames[1]["value"]) and shown_equals(dist[3], frames[2]["value"])
+    assert shown_equals(dist[2], scan["changes"][0]["estimate"])
+    xyz = (out / "geometry_change1.xyz").read_text(encoding="utf-8").splitlines()
+    assert xyz[0] == "3" and len(xyz) == 5

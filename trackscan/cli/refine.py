@@ -50,6 +50,16 @@ def _fmt(x) -> str:
     return f"{x:.6g}"
 
 
+def _quoted(change: dict):
+    """The one ± quoted for a change (as in the report): ``uncertainty.value``, else the
+    model's error when it is below half the bracket, else half the bracket."""
+    from trackscan.model import Change
+    from trackscan.report.scan_view import quoted_uncertainty
+
+    q = quoted_uncertainty(Change.from_dict(change))
+    return None if q is None else q.value
+
+
 def change_lines(scan: dict) -> list:
     """Printed table of the refined changes."""
     unit = scan["scan"]["coordinate"].get("unit", "")
@@ -58,8 +68,7 @@ def change_lines(scan: dict) -> list:
     rows = [("#", "bracket", "estimate", "method", "new frames", "bisection")]
     for n, ch in enumerate(scan["changes"], start=1):
         a, b = ch["bracket"]
-        unc = ch.get("uncertainty") or {}
-        err = unc.get("model_error")
+        err = _quoted(ch)
         est = _fmt(ch["estimate"]) + (f" ± {err:.2g}" if err is not None else "")
         rows.append((str(n), f"{_fmt(a)} → {_fmt(b)} {unit}".strip(), est, ch["estimate_method"],
                      str(ch.get("evaluations", 0)),

@@ -35,6 +35,9 @@ def run(args) -> int:
     src = Path(args.scan)
     if not src.exists():
         raise InputError("no such scan.json or folder", src)
+    if src.is_dir() and not (src / "scan.json").is_file():
+        raise InputError("this folder holds no scan.json (run `trackscan analyze` on a scan "
+                         "manifest first, or give the path of a scan.json)", src)
     out = prepare_output_dir(args.out if args.out else (src if src.is_dir() else src.parent))
     progress = TextProgress()
     files = write_report(src, out, source_dir=args.source_dir,

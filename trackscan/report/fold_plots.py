@@ -51,6 +51,11 @@ def inverse_interpolant(values, indicator):
     """
     g = np.asarray(indicator, float)
     s = np.asarray(values, float)
+    _, first = np.unique(g, return_index=True)   # equal indicator values: keep one of each
+    keep = np.sort(first)
+    g, s = g[keep], s[keep]
+    if len(g) < 2:
+        return np.poly1d([float(s[0])])
     coef = np.polyfit(g, s, len(g) - 1)
     return np.poly1d(coef)
 

@@ -18,7 +18,7 @@ from trackscan.errors import ParseError
 from trackscan.model import KINDS, Change, CriticalPoint, Frame, ScanResult
 from trackscan.vocabulary import unit_symbol
 
-__all__ = ["ScanView", "load_scan", "CP_KINDS", "Quoted"]
+__all__ = ["ScanView", "load_scan", "CP_KINDS", "Quoted", "quoted_uncertainty", "cp_by_track"]
 
 #: Critical-point kinds of the contract, in the order the report lists them.
 CP_KINDS = KINDS
@@ -174,25 +174,8 @@ class ScanView:
 
     # -- the quoted ± ---------------------------------------------------------------------
     def quoted(self, change: Change) -> Quoted | None:
-        """The one ± the report gives for a change's estimate.
-
-        ``uncertainty.value`` with its ``source`` when the change carries
-        them (contract version 2); else the model's error when there is
-        one, else half the bracket.
-        """
-        u = change.uncertainty
-        limited = bool(change.extra.get("resolution_limited"))
-        if u is not None:
-            value = u.extra.get("value")
-            if _finite(value):
-                return Quoted(abs(float(value)), str(u.extra.get("source") or "bracket"), limited)
-            half = abs(float(u.half_width)) if _finite(u.half_width) else change.width / 2.0
-            if _finite(u.model_error) and abs(float(u.model_error)) <= half:
-                return Quoted(abs(float(u.model_error)), "model", limited)
-            return Quoted(half, "bracket", limited)
-        if all(_finite(b) for b in change.bracket):
-            return Quoted(change.width / 2.0, "bracket", limited)
-        return None
+        """The one ± the report gives for a change's estimate (:func:`quoted_uncertainty`)."""
+        return quoted_uncertainty(change)
 
     def estimate(self, change: Change) -> float:
         """The change's estimate (the bracket midpoint when it has none)."""
@@ -241,6 +224,28 @@ class ScanView:
         if not m.is_absolute() and self.base_dir is not None:
             m = self.base_dir / m
         return m if m.is_file() else None
+
+
+def quoted_uncertainty(change: Change) -> Quoted | None:
+    """The one ± quoted for a change's estimate, in the CLI and the report alike.
+
+    ``uncertainty.value`` with its ``source`` when the change carries them
+    (contract version 2); else the model's error when there is one and it
+    is below half the bracket; else half the bracket.
+    """
+    u = change.uncertainty
+    limited = bool(change.extra.get("resolution_limited"))
+    if u is not None:
+        value = u.extra.get("value")
+        if _finite(value):
+            return Quoted(abs(float(value)), str(u.extra.get("source") or "bracket"), limited)
+        half = abs(float(u.half_width)) if _finite(u.half_width) else change.width / 2.0
+        if _finite(u.model_error) and abs(float(u.model_error)) <= half:
+            return Quoted(abs(float(u.model_error)), "model", limited)
+        return Quoted(half, "bracket", limited)
+    if all(_finite(b) for b in change.bracket):
+        return Quoted(change.width / 2.0, "bracket", limited)
+    return None
 
 
 def cp_by_track(frame: Frame | None, track) -> CriticalPoint | None:

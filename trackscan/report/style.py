@@ -28,13 +28,14 @@ import logging
 import textwrap
 
 import matplotlib
+import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure as MplFigure
 from matplotlib.text import Text
 
 __all__ = ["OKABE_ITO", "CP_STYLE", "LINE_COLOURS", "LINE_STYLES", "new_figure", "render",
            "BRACKET_STYLE", "ESTIMATE_STYLE", "COLUMN_WIDTH_IN", "DOUBLE_WIDTH_IN", "PNG_DPI",
-           "FONT_SIZE", "styled", "CONTEXT_GREY", "text_overlaps", "wrap_to_width", "visible_texts", "FigureFiles"]
+           "FONT_SIZE", "styled", "label_clashes", "LABEL_GID", "MARKER_GID", "CONTEXT_GREY", "text_overlaps", "wrap_to_width", "visible_texts", "FigureFiles"]
 
 logger = logging.getLogger(__name__)
 
@@ -118,10 +119,12 @@ def styled(make):
 class FigureFiles:
     """The three renderings of one figure (same content): PNG, SVG and PDF bytes."""
 
-    __slots__ = ("png", "svg", "pdf", "size_in")
+    __slots__ = ("png", "svg", "pdf", "size_in", "overlaps")
 
-    def __init__(self, png: bytes, svg: bytes, pdf: bytes, size_in: tuple):
+    def __init__(self, png: bytes, svg: bytes, pdf: bytes, size_in: tuple, overlaps=()):
         self.png, self.svg, self.pdf, self.size_in = png, svg, pdf, size_in
+        #: What :func:`text_overlaps` and :func:`label_clashes` found after layout.
+        self.overlaps = tuple(overlaps)
 
 
 def render(fig: MplFigure) -> FigureFiles:
@@ -132,7 +135,7 @@ def render(fig: MplFigure) -> FigureFiles:
     """
     with matplotlib.rc_context(_RC):
         fig.canvas.draw()
-        clashes = text_overlaps(fig)
+        clashes = text_overlaps(fig) + label_clashes(fig)
         for a, b in clashes:
             logger.warning("figure text overlaps: %r and %r", a, b)
         out = {}
@@ -145,7 +148,7 @@ def render(fig: MplFigure) -> FigureFiles:
             out[fmt] = buf.getvalue()
         bbox = fig.get_tightbbox(fig.canvas.get_renderer())
     return FigureFiles(out["png"], out["svg"], out["pdf"],
-                       (float(bbox.width) + 0.06, float(bbox.height) + 0.06))
+                       (float(bbox.width) + 0.06, float(bbox.height) + 0.06), clashes)
 
 
 def _axes_texts(ax) -> list:
@@ -217,6 +220,47 @@ def text_overlaps(fig: MplFigure, *, pad: float = 0.5) -> list:
             a, b = boxes[i], boxes[j]
             if a[1] < b[3] and b[1] < a[3] and a[2] < b[4] and b[2] < a[4]:
                 out.append((a[0], b[0]))
+    return out
+
+
+#: gid of the texts that label atoms, and of the markers they must not cover.
+LABEL_GID = "atom-label"
+MARKER_GID = "cp-marker"
+
+
+def label_clashes(fig: MplFigure) -> list:
+    """Atom labels that cover a marker or reach outside their axes.
+
+    Markers are the scatter collections with gid :data:`MARKER_GID`; labels
+    the texts with gid :data:`LABEL_GID`.  Returns ``(label, what)`` pairs.
+    """
+    renderer = fig.canvas.get_renderer()
+    out = []
+    axes = list(fig.axes)
+    for ax in axes:
+        labels = [t for t in ax.texts if t.get_gid() == LABEL_GID and t.get_visible()]
+        if not labels:
+            continue
+        frame = ax.get_window_extent(renderer)
+        discs = []
+        px = fig.dpi / 72.0
+        for coll in ax.collections:
+            if coll.get_gid() != MARKER_GID:
+                continue
+            sizes = coll.get_sizes()
+            r = 0.5 * float(np.sqrt(sizes[0] if len(sizes) else 20.0)) * px
+            for xy in ax.transData.transform(coll.get_offsets()):
+                discs.append((xy[0], xy[1], r))
+        for t in labels:
+            bb = t.get_window_extent(renderer)
+            if bb.x0 < frame.x0 - 0.5 or bb.x1 > frame.x1 + 0.5 or \
+                    bb.y0 < frame.y0 - 0.5 or bb.y1 > frame.y1 + 0.5:
+                out.append((t.get_text(), "the edge of its panel"))
+            for x, y, r in discs:
+                dx = max(bb.x0 - x, 0.0, x - bb.x1)
+                dy = max(bb.y0 - y, 0.0, y - bb.y1)
+                if dx * dx + dy * dy < (0.8 * r) ** 2:
+                    out.append((t.get_text(), f"a marker at ({x:.0f}, {y:.0f}) px"))
     return out
 
 
