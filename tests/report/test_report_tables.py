@@ -159,7 +159,7 @@ def test_early_warnings_table_equals_scan_json(report):
     assert len(rows) == len(scan["early_warnings"])
     for row, w in zip(rows, scan["early_warnings"]):
         assert row[0] == "bond path C1–C2" and row[1] == "ellipticity rising"
-        projected = numbers(row[2].split("vanish near")[1].split(";")[0])
+        projected = numbers(row[2].split("a change near")[1].split(";")[0])
         assert len(projected) == len(w["projected"])
         assert all(shown_equals(x, v) for x, v in zip(projected, w["projected"].values()))
         assert "followed by the change between frames 1 and 2" in row[2]

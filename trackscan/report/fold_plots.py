@@ -23,6 +23,7 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
+from matplotlib.ticker import MaxNLocator
 
 from trackscan.report.change_geometry import fold_pair, switch_event
 from trackscan.report.document import Figure
@@ -132,6 +133,7 @@ def fold_figure(scan: ScanView, change, number: int):
     ys = list(y_curve[inside]) + [v for u, v in zip(x, d2) if window[0] <= u <= window[1]]
     top = max(ys) if ys else float(sy.max())
     ax_zoom.set_ylim(-0.05 * top, 1.15 * top)
+    ax_zoom.xaxis.set_major_locator(MaxNLocator(4))
     ax_all.set_ylim(bottom=-0.03 * float(d2.max()))
     ax_all.set_title("along the scan", loc="left")
     ax_zoom.set_title("zoom on the estimate", loc="left")

@@ -20,7 +20,7 @@ from trackscan.report.change_geometry import (Plane, best_plane, change_plane, c
 from trackscan.report.document import Figure
 from trackscan.report.scan_view import ScanView
 from trackscan.report.style import (CP_STYLE, FONT_SIZE, OKABE_ITO, legend_below, new_figure,
-                                    render, styled, wrap_to_width)
+                                    render, settle, styled, wrap_to_width)
 from trackscan.report.wording import change_decimals, fmt_coord
 from trackscan.units import BOHR_IN_ANGSTROM
 
@@ -100,8 +100,8 @@ def draw_graph(ax, scan: ScanView, frame, plane: Plane, *, involved=(), changed=
     return [(uv, ", ".join(names), bold) for uv, names, bold in spots] if labels else []
 
 
-def _obstacles(ax, fig) -> list:
-    """Marker discs and bond-path points of `ax` in display pixels: (x, y, radius)."""
+def _obstacles(ax, fig) -> np.ndarray:
+    """Marker discs and bond-path points of `ax` in display pixels: rows (x, y, radius, weight)."""
     out = []
     px = fig.dpi / 72.0
     for coll in ax.collections:
@@ -110,7 +110,7 @@ def _obstacles(ax, fig) -> list:
         sizes = coll.get_sizes()
         r = 0.5 * np.sqrt(sizes[0] if len(sizes) else 20.0) * px + 1.0
         for xy in ax.transData.transform(coll.get_offsets()):
-            out.append((xy[0], xy[1], r))
+            out.append((xy[0], xy[1], r, 1.0))
     for line in ax.lines:
         if line.get_gid() != "bond-path":
             continue
@@ -119,18 +119,18 @@ def _obstacles(ax, fig) -> list:
             n = max(1, int(np.linalg.norm(b - a) / 4.0))
             for t in np.linspace(0, 1, n + 1):
                 p = a + t * (b - a)
-                out.append((p[0], p[1], 1.2))
-    return out
+                out.append((p[0], p[1], 1.2, 0.15))
+    return np.array(out, float).reshape(-1, 4)
 
 
-def _box_hits(bb, obstacles) -> float:
-    hit = 0.0
-    for x, y, r in obstacles:
-        dx = max(bb.x0 - x, 0.0, x - bb.x1)
-        dy = max(bb.y0 - y, 0.0, y - bb.y1)
-        if dx * dx + dy * dy < r * r:
-            hit += 1.0 if r > 2 else 0.15
-    return hit
+def _box_hits(bb, obstacles: np.ndarray) -> float:
+    """Weighted count of obstacles (markers 1, path points 0.15) that the box touches."""
+    if not len(obstacles):
+        return 0.0
+    x, y, r, w = obstacles.T
+    dx = np.maximum.reduce([bb.x0 - x, np.zeros_like(x), x - bb.x1])
+    dy = np.maximum.reduce([bb.y0 - y, np.zeros_like(y), y - bb.y1])
+    return float(np.sum(w[dx * dx + dy * dy < r * r]))
 
 
 def _overlap(a, b) -> float:
@@ -151,7 +151,7 @@ def place_atom_labels(ax, fig, spots) -> list:
     """
     if not spots:
         return []
-    fig.canvas.draw()
+    settle(fig)
     renderer = fig.canvas.get_renderer()
     obstacles = _obstacles(ax, fig)
     frame_box = ax.get_window_extent(renderer)
@@ -195,7 +195,8 @@ def legend_handles(frames, *, pair=False, changed=True) -> list:
         open_path = open_path or any(p.complete is False for p in f.bond_paths)
     st = CP_STYLE["nuclear"]
     handles = [Line2D([], [], marker="o", ls="none", markerfacecolor="white",
-                      markeredgecolor=st["color"], ms=5, label="nucleus (bold: involved)"),
+                      markeredgecolor=st["color"], ms=5,
+                      label="nucleus (bold: involved)" if changed else "nucleus"),
                Line2D([], [], color=PATH_COLOUR, lw=0.9, label="bond path")]
     if open_path:
         handles.append(Line2D([], [], color=PATH_COLOUR, lw=0.9, ls=":",
@@ -239,7 +240,7 @@ def _share_limits(axes, pad=0.12) -> None:
 
 
 def panel_title(ax, fig, scan: ScanView, frame, side: str, decimals: int) -> None:
-    fig.canvas.draw()
+    settle(fig)
     width = ax.get_position().width * fig.get_figwidth()
     text = (f"{side}: frame {scan.frame_label(frame)} "
             f"({scan.with_unit(fmt_coord(frame.value, decimals))})")
@@ -250,7 +251,7 @@ def panel_title(ax, fig, scan: ScanView, frame, side: str, decimals: int) -> Non
 def _pair_inset(ax, fig, scan, frame, plane, pair, involved, changed):
     """Magnify a fold pair whose markers would overlap."""
     uv = _uv(plane, [cp.position_bohr for cp in pair.cps])
-    fig.canvas.draw()
+    settle(fig)
     px = ax.transData.transform(uv)
     if np.linalg.norm(px[0] - px[1]) >= PAIR_INSET_PIXELS:
         return None
@@ -374,7 +375,7 @@ def structures_figure(scan: ScanView):
         ax.set_axis_off()
     _share_limits(list(axes[:len(shown)]))
     for ax, (s, f) in zip(axes, shown):
-        fig.canvas.draw()
+        settle(fig)
         width = ax.get_position().width * fig.get_figwidth()
         title = f"structure {s.number}: frame {scan.frame_label(f)}"
         ax.set_title(wrap_to_width(fig, title, width, fontsize=FONT_SIZE), loc="left",

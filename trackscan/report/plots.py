@@ -15,8 +15,8 @@ from trackscan.report.change_geometry import changed_tracks
 from trackscan.report.document import Figure
 from trackscan.report.scan_view import CP_KINDS, ScanView
 from trackscan.report.style import (BRACKET_STYLE, CONTEXT_GREY, CP_STYLE, ESTIMATE_STYLE,
-                                    LINE_COLOURS, legend_below, new_figure, render, styled,
-                                    wrap_to_width)
+                                    LINE_COLOURS, legend_below, new_figure, render, settle,
+                                    styled, wrap_to_width)
 from trackscan.units import HARTREE_IN_KCAL_PER_MOL
 from trackscan.vocabulary import CP_KIND_NAMES
 
@@ -31,7 +31,7 @@ _EQUIVALENCE_ATOL = 1e-5
 
 def set_xlabel(ax, scan: ScanView, fig) -> None:
     """The coordinate label with its unit, wrapped to the width of the axes."""
-    fig.canvas.draw()
+    settle(fig)
     width = ax.get_position().width * fig.get_figwidth()
     ax.set_xlabel(wrap_to_width(fig, scan.axis_label, width))
 
@@ -248,6 +248,7 @@ def bond_cp_plot(scan: ScanView):
     legend_below(fig, list(axes), handles + change_handles(scan), ncol=3)
     named = "; ".join(f"{g['label']} ({', '.join(g['members'])})" if len(g["members"]) > 1
                       else g["label"] for g in others)
+    merged = any(len(g["members"]) > 1 for g in others)
     involved = [g["label"] for g in groups if g["involved"]]
     text = ("Density ρ, its Laplacian ∇²ρ and the ellipticity ε at the bond CPs along the "
             "scan. ")
@@ -255,6 +256,9 @@ def bond_cp_plot(scan: ScanView):
         text += (f"In colour, the bond paths involved in a change ({', '.join(involved)}; an "
                  "arrow means the path changed ends); ")
     if others:
-        text += (f"in grey, the other bond paths, symmetry-equivalent ones (same elements, "
-                 f"same values within {EQUIVALENCE_RTOL:.1%}) drawn as one line: {named}.")
+        text += f"in grey, the other bond paths: {named}."
+        if merged:
+            text += (f" Symmetry-equivalent bond paths (same elements, the same ρ, ∇²ρ and ε "
+                     f"within {EQUIVALENCE_RTOL:.1%} in every frame) are drawn as one line, "
+                     "labelled ×n.")
     return Figure("bond_cp_properties", render(fig), text.strip(), "bond CP properties")

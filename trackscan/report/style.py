@@ -45,6 +45,8 @@ COLUMN_WIDTH_IN = 3.35
 DOUBLE_WIDTH_IN = 7.0
 #: Resolution of the PNG files (journals ask for at least 300 dpi).
 PNG_DPI = 300
+#: White margin (inches) around the drawn content of a figure file.
+_PAD_IN = 0.03
 #: Base font size (pt) at printed size.
 FONT_SIZE = 7.5
 
@@ -102,6 +104,18 @@ def new_figure(columns: int = 2, height: float = 2.6) -> MplFigure:
     return fig
 
 
+def settle(fig: MplFigure) -> None:
+    """Fix every axes' final box (aspect ratios applied) without drawing the figure.
+
+    Measuring texts and transforming data to pixels needs only this, not a
+    full draw, which is the expensive part of making a figure.
+    """
+    for ax in fig.axes:
+        ax.apply_aspect()
+        for child in ax.child_axes:
+            child.apply_aspect()
+
+
 def styled(make):
     """Decorator: run a figure-making function inside the report's rc settings.
 
@@ -138,17 +152,18 @@ def render(fig: MplFigure) -> FigureFiles:
         clashes = text_overlaps(fig) + label_clashes(fig)
         for a, b in clashes:
             logger.warning("figure text overlaps: %r and %r", a, b)
+        # the tight box once, so each format draws the figure once (not twice)
+        bbox = fig.get_tightbbox(fig.canvas.get_renderer()).padded(_PAD_IN)
         out = {}
         for fmt, meta in (("png", {"Software": None}),
                           ("svg", {"Date": None, "Creator": None}),
                           ("pdf", {"CreationDate": None, "Creator": None, "Producer": None})):
             buf = io.BytesIO()
-            fig.savefig(buf, format=fmt, dpi=PNG_DPI, metadata=meta, bbox_inches="tight",
-                        pad_inches=0.03, facecolor="white")
+            fig.savefig(buf, format=fmt, dpi=PNG_DPI, metadata=meta, bbox_inches=bbox,
+                        facecolor="white")
             out[fmt] = buf.getvalue()
-        bbox = fig.get_tightbbox(fig.canvas.get_renderer())
     return FigureFiles(out["png"], out["svg"], out["pdf"],
-                       (float(bbox.width) + 0.06, float(bbox.height) + 0.06), clashes)
+                       (float(bbox.width), float(bbox.height)), clashes)
 
 
 def _axes_texts(ax) -> list:
@@ -297,7 +312,7 @@ def legend_below(fig: MplFigure, axes, handles, *, ncol: int = 2):
     if not handles:
         return None
     axes = list(axes) if isinstance(axes, (list, tuple)) else [axes]
-    fig.canvas.draw()
+    settle(fig)
     renderer = fig.canvas.get_renderer()
     boxes = [ax.get_tightbbox(renderer) for ax in axes]
     x0 = min(b.x0 for b in boxes)

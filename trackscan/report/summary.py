@@ -70,6 +70,15 @@ def _mechanism_clause(scan: ScanView, change) -> str:
     return f"an unresolved change: the frames cannot decide the mechanism{note}"
 
 
+def _quote_source(change, q) -> str:
+    """Where the ± comes from, as a parenthesis in a sentence."""
+    if q.source == "model":
+        return f"± from the {method_words(change)}"
+    if q.source == "bracket":
+        return "± half the bracket"
+    return f"± {UNCERTAINTY_SOURCES.get(q.source, q.source)}"
+
+
 def summary_text(scan: ScanView) -> str:
     """The summary paragraph: the scan in one sentence, then one sentence per change."""
     n = len(scan.frames)
@@ -83,7 +92,8 @@ def summary_text(scan: ScanView) -> str:
         return head + ("the molecular graph does not change: every frame has the same "
                        "structure (a change between two frames closer than the sampling "
                        "cannot be excluded).")
-    head += f"the molecular graph changes {plural(len(changes), 'time')}."
+    times = {1: "once", 2: "twice"}.get(len(changes), f"{len(changes)} times")
+    head += f"the molecular graph changes {times}."
     sentences = [head]
     for k, change in enumerate(changes, 1):
         before, after = scan.change_frames(change)
@@ -91,7 +101,7 @@ def summary_text(scan: ScanView) -> str:
         where = (f"Change {k} happens at {scan.coordinate_label} = "
                  f"{estimate_text(scan, change)}")
         if q is not None:
-            where += f" ({UNCERTAINTY_SOURCES.get(q.source, q.source)})"
+            where += f" ({_quote_source(change, q)})"
         where += (f", between frames {scan.frame_label(before)} and {scan.frame_label(after)}"
                   if before is not None and after is not None else "")
         text = f"{where}: {change_words(scan, change)}; this is {_mechanism_clause(scan, change)}"

@@ -32,6 +32,9 @@ __all__ = ["summary_table", "structures_table", "pair_table", "geometry_table",
            "energy_density_table", "resolution_table", "frame_table", "warning_table",
            "settings_table", "change_csv", "critical_point_csv", "write_csv", "CSV_DIGITS"]
 
+#: The quantity each early-warning projection extrapolates, in words.
+PROJECTED_FROM = {"ellipticity": "from ε", "min_abs_eigenvalue": "from the smallest |λ|",
+                  "nearest_ring_bohr": "from the ring CP's distance", "rho": "from ρ"}
 #: Significant digits of densities and curvatures in the CSV files.
 CSV_DIGITS = 6
 #: Decimals of positions (Å) in tables and CSV files.
@@ -256,11 +259,10 @@ def warning_table(scan: ScanView):
         if w.frames:
             details.append(f"frames {_ranges(w.frames)}")
         if w.projected:
-            zeros = sorted({fmt_sig(v, 4) for v in w.projected.values()
-                            if isinstance(v, (int, float))})
+            zeros = [f"{scan.with_unit(fmt_sig(v, 4))} ({PROJECTED_FROM.get(k, k.replace('_', ' '))})"
+                     for k, v in w.projected.items() if isinstance(v, (int, float))]
             if zeros:
-                details.append("projected to vanish near " + " and ".join(
-                    scan.with_unit(z) for z in zeros))
+                details.append("extrapolated to a change near " + ", ".join(zeros))
         if w.change_between:
             details.append("followed by the change between frames "
                            + " and ".join(str(x) for x in w.change_between))
