@@ -44,8 +44,9 @@ def report(tmp_path_factory):
     out = tmp_path_factory.mktemp("report")
     scan = ring_opening_scan()
     (out / "scan.json").write_text(json.dumps(scan), encoding="utf-8")
-    files = write_report(out / "scan.json", out, date="2026-12-01")
-    return scan, files, out
+    events = []
+    files = write_report(out / "scan.json", out, date="2026-12-01", progress=events.append)
+    return scan, files, out, events
 
 
 def _html(report):
@@ -187,7 +188,7 @@ def test_cautions_are_stated(report):
 
 
 def test_every_image_is_embedded_and_matches_markdown_files(report):
-    _, files, out = report
+    _, files, out, _ = report
     page = _html(report)
     assert page.images, "the report has figures"
     embedded = []
@@ -210,7 +211,7 @@ def test_every_image_is_embedded_and_matches_markdown_files(report):
 
 
 def test_csv_files_load_and_hold_scan_numbers(report):
-    scan, files, _ = report
+    scan, files, _, _ = report
     with open(files.changes_csv, newline="", encoding="utf-8") as fh:
         changes = list(csv.DictReader(fh))
     assert len(changes) == len(scan["changes"])
@@ -248,7 +249,7 @@ def test_csv_files_load_and_hold_scan_numbers(report):
 
 def test_figures_are_written_as_png_svg_and_pdf_with_the_same_content(report):
     import struct
-    _, files, out = report
+    _, files, out, _ = report
     assert len(files.images) >= 5 and len(files.vector_images) == 2 * len(files.images)
     for png in files.images:
         svg, pdf = png.with_suffix(".svg"), png.with_suffix(".pdf")
@@ -270,11 +271,7 @@ def test_figures_are_written_as_png_svg_and_pdf_with_the_same_content(report):
 
 
 def test_minimal_scan_without_optional_keys(tmp_path):
-    atoms = [{"number": 1, "element": "H", "Z": 1, "position_bohr": [0.0, 0.0, 0.0]}]
-    scan = {"scan": {"name": "minimal"},
-            "frames": [{"index": i, "value": v, "atoms": atoms} for i, v in
-                       enumerate((1.0, 1.1, 1.2))]}
-    files = write_report(scan, tmp_path, date=None)
+    files = write_report(_minimal_scan(), tmp_path, date=None)
     page = read_html(files.html.read_text(encoding="utf-8"))
     rows = page.tables["table-frames"]["rows"]
     assert [r[0] for r in rows] == ["0", "1", "2"]
@@ -284,9 +281,9 @@ def test_minimal_scan_without_optional_keys(tmp_path):
         assert len(list(csv.reader(fh))) == 1      # header only
 
 
-def test_rerun_without_date_is_byte_identical(tmp_path):
-    a = write_report(ring_opening_scan(), tmp_path / "a", date=None)
-    b = write_report(ring_opening_scan(), tmp_path / "b", date=None)
+def test_rerun_is_byte_identical(report, tmp_path):
+    _, a, out, _ = report
+    b = write_report(out / "scan.json", tmp_path / "b", date="2026-12-01")
     assert a.html.read_bytes() == b.html.read_bytes()
     assert a.markdown.read_bytes() == b.markdown.read_bytes()
     assert len(a.vector_images) > 0
@@ -309,8 +306,16 @@ def test_bad_scan_json_is_an_input_error(tmp_path, content, error):
     assert main(["report", str(path), "--out", str(tmp_path / "r")]) == 2
 
 
+def _minimal_scan():
+    atoms = [{"number": 1, "element": "H", "Z": 1, "position_bohr": [0.0, 0.0, 0.0]},
+             {"number": 2, "element": "H", "Z": 1, "position_bohr": [1.4, 0.0, 0.0]}]
+    return {"schema": "trackscan.scan/1", "scan": {"name": "minimal"},
+            "frames": [{"index": i, "value": v, "atoms": atoms} for i, v in
+                       enumerate((1.0, 1.1, 1.2))]}
+
+
 def test_cli_writes_report_next_to_scan(tmp_path, capsys):
-    (tmp_path / "scan.json").write_text(json.dumps(ring_opening_scan()), encoding="utf-8")
+    (tmp_path / "scan.json").write_text(json.dumps(_minimal_scan()), encoding="utf-8")
     assert main(["report", str(tmp_path), "--no-date"]) == 0
     assert (tmp_path / "report.html").is_file() and (tmp_path / "report.md").is_file()
     assert "report.html" in capsys.readouterr().out
@@ -326,11 +331,11 @@ def test_markdown_and_html_carry_the_same_tables(report):
         assert m["rows"] == h["rows"]
 
 
-def test_progress_events_count_up_to_the_total(tmp_path):
-    events = []
-    write_report(ring_opening_scan(), tmp_path, date=None, progress=events.append)
+def test_progress_events_count_up_to_the_total(report):
+    events = report[3]
     assert {e.task for e in events} == {"report"}
     done = [e.done for e in events]
+    # 3 plots + the structures + 1 change + writing
     assert done == sorted(done) and done[-1] == events[-1].total == 4 + 1 + 1
 
 
@@ -342,7 +347,7 @@ def test_report_folder_that_is_a_file_is_an_input_error(tmp_path):
     assert main(["report", str(tmp_path), "--out", str(tmp_path / "taken" / "sub")]) == 2
 
 
-def test_descending_scan_keeps_scan_order(tmp_path):
+def test_descending_scan_keeps_scan_order():
     # the same ring opening read backwards: the ring forms as C1–C2 shortens
     scan = ring_opening_scan()
     n = len(scan["frames"])
@@ -353,12 +358,12 @@ def test_descending_scan_keeps_scan_order(tmp_path):
               events=[{"kind": "bond_formed", "atoms": [1, 2], "track": "T-b12",
                        "fold_with": "T-r1"},
                       {"kind": "ring_formed", "track": "T-r1", "fold_with": "T-b12"}])
-    files = write_report(scan, tmp_path, date=None)
-    page = read_html(files.html.read_text(encoding="utf-8"))
-    row = page.tables["table-summary"]["rows"][0]
+    from trackscan.report.tables import frame_table, summary_table
+    view = load_scan(scan)
+    row = summary_table(view).rows[0]
     assert numbers(row[2]) == ["1.900", "1.700"]
     assert "bond path C1–C2 formed" in row[5] and "(fold with the bond CP of C1–C2)" in row[5]
-    values = [r[1] for r in page.tables["table-frames"]["rows"]]
+    values = [r[1] for r in frame_table(view).rows]
     assert values == ["2.100", "1.900", "1.700", "1.500"]
 
 
@@ -377,7 +382,7 @@ def test_structures_table_equals_scan_json(report):
 
 
 def test_energy_densities_and_geometry_at_the_estimate_equal_scan_json(report):
-    scan, files, out = report
+    scan, files, out, _ = report
     page = _html(report)
     table = page.tables["table-energy_densities1"]
     col = {h: i for i, h in enumerate(table["header"])}
