@@ -24,7 +24,8 @@ from __future__ import annotations
 import dataclasses
 import math
 from dataclasses import dataclass, field
-from typing import Any, Mapping
+from functools import cached_property
+from typing import Mapping
 
 import numpy as np
 
@@ -62,17 +63,26 @@ def round_value(x: float) -> float:
 def significant(x, digits: int = 10):
     """`x` (a number or nested sequence) rounded to `digits` significant digits.
 
-    Non-finite numbers and None stay as they are; ``-0.0`` becomes ``0.0``.
-    This is the one rounding rule of the frame and tracking output, so
-    identical input gives identical bytes.
+    None and non-finite numbers become None (JSON ``null``, which is how
+    scan.json writes them anyway); ``-0.0`` becomes ``0.0``.  This is the one
+    rounding rule of the frame and tracking output, so that noise far below
+    any meaningful digit (e.g. from a rigid rotation) cannot change the
+    output and identical input gives identical bytes.
+
+    Examples
+    --------
+    >>> significant(0.123456789012345)
+    0.123456789
+    >>> significant(float("nan")) is None
+    True
     """
     if x is None:
         return None
     if isinstance(x, (list, tuple, np.ndarray)):
         return [significant(v, digits) for v in x]
     x = float(x)
-    if not math.isfinite(x) or x == 0.0:
-        return x + 0.0 if math.isfinite(x) else x
+    if not math.isfinite(x):
+        return None
     return float(f"{x:.{digits}g}") + 0.0
 
 
@@ -125,7 +135,18 @@ def _freeze(value):
 
 
 class _Model:
-    """Mixin: ``to_dict`` / ``from_dict`` driven by the field metadata."""
+    """Mixin: ``to_dict`` / ``from_dict`` driven by the field metadata.
+
+    Two objects are equal when their contract dicts are (objects hold
+    tuples and arrays, which the dataclass equality would compare badly).
+    """
+
+    __hash__ = None
+
+    def __eq__(self, other):
+        if type(other) is not type(self):
+            return NotImplemented
+        return self.to_dict() == other.to_dict()
 
     def to_dict(self) -> dict:
         """The contract dict of this object (JSON-ready; new lists and dicts)."""
@@ -301,7 +322,7 @@ class CriticalPoint(_Model):
         if self.atoms is None:
             object.__setattr__(self, "atoms", ())
 
-    @property
+    @cached_property
     def position(self) -> np.ndarray:
         """Position as a (3,) array, bohr."""
         return _vector(self.position_bohr)
@@ -692,20 +713,33 @@ class Resolution(_Model):
 
 @dataclass(frozen=True, eq=False)
 class Uncertainty(_Model):
-    """The ± of a change's estimate, coordinate units.
+    """The ± to quote with a change's estimate, coordinate units.
 
     Attributes
     ----------
+    value : float or None
+        The ± a researcher quotes; never more than `half_width`.
+    source : str or None
+        What sets it: ``bracket`` (half the bracket: the frames alone),
+        ``model`` (the calibrated error of the fold extrapolation or the
+        conflict interpolation) or ``resolution`` (how far the grid's own
+        catastrophe can lie from the true one).
     half_width : float
         Half the bracket: the estimate cannot be further off than this.
     model_error : float or None
-        Error of the model estimate (fold extrapolation, conflict
-        interpolation), when there is one.
+        Calibrated error of the model estimate, when there is one.
+    resolution : float or None
+        The resolution term, converted into the coordinate.
     """
 
     half_width: float | None = _key("half_width")
-    model_error: float | None = _key("model_error", mode=_OPTIONAL)
+    model_error: float | None = _key("model_error")
+    value: float | None = _key("value", mode=_OPTIONAL)
+    source: str | None = _key("source", mode=_OPTIONAL)
+    resolution: float | None = _key("resolution", mode=_OPTIONAL)
     extra: dict = _extra()
+
+    SOURCES = ("bracket", "model", "resolution")
 
 
 @dataclass(frozen=True, eq=False)
@@ -733,6 +767,11 @@ class Change(_Model):
     refine : dict or None
         The refinement record (initial bracket, tolerance, fits).
     note : str or None
+    mechanism_candidate : str or None
+        What the events point to when `mechanism` is ``unresolved``.
+    resolution_limited : bool or None
+        True when the frames next to the bracket are below what their grids
+        resolve (the mechanism is kept, read from the approach).
     """
 
     between: tuple = _key("between", default=dataclasses.MISSING)
@@ -748,6 +787,8 @@ class Change(_Model):
     evaluations: int | None = _key("evaluations", mode=_OPTIONAL)
     refine: dict | None = _key("refine", mode=_OPTIONAL)
     note: str | None = _key("note", mode=_OPTIONAL)
+    mechanism_candidate: str | None = _key("mechanism_candidate", mode=_OPTIONAL)
+    resolution_limited: bool | None = _key("resolution_limited", mode=_OPTIONAL)
     extra: dict = _extra()
 
     MECHANISMS = ("fold", "conflict", "mixed", "unresolved")
@@ -760,6 +801,13 @@ class Change(_Model):
             _fail(f"{path}.bracket", "expected two values")
         if not isinstance(self.between, tuple) or len(self.between) != 2:
             _fail(f"{path}.between", "expected two frame indices")
+
+    @property
+    def mechanism_evidence(self) -> str:
+        """The mechanism the events point to, even where it was judged unresolved."""
+        if self.mechanism == "unresolved" and self.mechanism_candidate:
+            return self.mechanism_candidate
+        return self.mechanism
 
     @property
     def width(self) -> float:

@@ -185,8 +185,8 @@ def conflict_series(scan: ScanView, change):
         return None
     from trackscan.refine.indicators import conflict_samples, conflict_spec
 
-    frames = [f.to_dict() for f in scan.frames]
-    spec = conflict_spec(change.to_dict())
+    frames = scan.frames
+    spec = conflict_spec(change)
     if spec is None:
         return None
     samples = sorted(conflict_samples(frames, spec, per_side=4), key=lambda s: s.value)

@@ -234,11 +234,10 @@ def quoted_uncertainty(change: Change) -> Quoted | None:
     is below half the bracket; else half the bracket.
     """
     u = change.uncertainty
-    limited = bool(change.extra.get("resolution_limited"))
+    limited = bool(change.resolution_limited)
     if u is not None:
-        value = u.extra.get("value")
-        if _finite(value):
-            return Quoted(abs(float(value)), str(u.extra.get("source") or "bracket"), limited)
+        if _finite(u.value):
+            return Quoted(abs(float(u.value)), str(u.source or "bracket"), limited)
         half = abs(float(u.half_width)) if _finite(u.half_width) else change.width / 2.0
         if _finite(u.model_error) and abs(float(u.model_error)) <= half:
             return Quoted(abs(float(u.model_error)), "model", limited)

@@ -59,7 +59,7 @@ def summary_table(scan: ScanView) -> Table:
         before, after = scan.change_frames(change)
         frames = "–".join(scan.frame_label(f) if f is not None else "?" for f in (before, after))
         mech = change.mechanism
-        cand = change.extra.get("mechanism_candidate")
+        cand = change.mechanism_candidate
         if cand and cand != mech:
             mech += f" (looks like {cand})"
         n = change.evaluations
