@@ -217,21 +217,34 @@ def conflict_figure(scan: ScanView, change, number: int):
     g_curve = np.linspace(float(g[use].min()), float(g[use].max()), 100)
     est = scan.estimate(change)
     q = scan.quoted(change)
-    fig = new_figure(1, 2.4)
-    ax = fig.add_subplot()
-    ax.axhline(0.0, color="black", lw=0.5)
-    ax.plot(x, g, color=DATA_COLOUR, lw=0.9, marker="o", ms=3.2, zorder=3)
-    ax.plot(x[use], g[use], ls="none", marker="o", ms=5.5, markerfacecolor="none",
-            markeredgecolor=FIT_COLOUR, markeredgewidth=1.0, zorder=4)
-    ax.plot(model(g_curve), g_curve, color=FIT_COLOUR, lw=1.2, zorder=3)
-    ax.axvspan(lo, hi, **BRACKET_STYLE)
-    if q is not None:
-        ax.axvspan(est - q.value, est + q.value, color=FIT_COLOUR, alpha=0.18, lw=0)
-    ax.axvline(est, **ESTIMATE_STYLE)
-    ax.set_ylabel("path offset (Å)")
-    ax.grid(alpha=0.3, lw=0.4)
-    orient(ax, scan)
-    set_xlabel(ax, scan, fig)
+    fig = new_figure(2, 2.5)
+    ax_all, ax_zoom = fig.subplots(1, 2)
+    for ax in (ax_all, ax_zoom):
+        ax.axhline(0.0, color="black", lw=0.5)
+        ax.plot(x, g, color=DATA_COLOUR, lw=0.9, marker="o", ms=3.2, zorder=3)
+        ax.plot(x[use], g[use], ls="none", marker="o", ms=5.5, markerfacecolor="none",
+                markeredgecolor=FIT_COLOUR, markeredgewidth=1.0, zorder=4)
+        ax.plot(model(g_curve), g_curve, color=FIT_COLOUR, lw=1.2, zorder=3)
+        ax.axvspan(lo, hi, **BRACKET_STYLE)
+        if q is not None:
+            ax.axvspan(est - q.value, est + q.value, color=FIT_COLOUR, alpha=0.18, lw=0)
+        ax.axvline(est, **ESTIMATE_STYLE)
+        ax.set_ylabel("path offset (Å)")
+        ax.grid(alpha=0.3, lw=0.4)
+    xs = x[use]
+    span = float(xs.max() - xs.min()) or (hi - lo) or 1.0
+    ax_zoom.set_xlim(xs.min() - 0.15 * span, xs.max() + 0.15 * span)
+    gs = g[use]
+    gspan = float(gs.max() - gs.min()) or 1.0
+    ax_zoom.set_ylim(gs.min() - 0.15 * gspan, gs.max() + 0.15 * gspan)
+    ax_zoom.xaxis.set_major_locator(MaxNLocator(4))
+    ax_all.set_title("along the scan", loc="left")
+    ax_zoom.set_title("zoom on the estimate", loc="left")
+    orient(ax_all, scan)
+    orient(ax_zoom, scan)
+    fig.subplots_adjust(wspace=0.32)
+    set_xlabel(ax_all, scan, fig)
+    set_xlabel(ax_zoom, scan, fig)
     handles = [Line2D([], [], color=DATA_COLOUR, marker="o", ms=3, lw=0.9,
                       label="offset in each frame"),
                Line2D([], [], ls="none", marker="o", ms=5, markerfacecolor="none",
@@ -239,7 +252,9 @@ def conflict_figure(scan: ScanView, change, number: int):
                Line2D([], [], color=FIT_COLOUR, lw=1.2, label="interpolation"),
                Patch(facecolor=BRACKET_STYLE["color"], alpha=0.5, label="bracket"),
                Line2D([], [], **ESTIMATE_STYLE, label="estimate")]
-    legend_below(fig, ax, handles, ncol=2)
+    if q is not None:
+        handles.append(Patch(facecolor=FIT_COLOUR, alpha=0.3, label="± uncertainty"))
+    legend_below(fig, [ax_all, ax_zoom], handles, ncol=3)
     e = switch_event(change)
     before, after = scan.change_frames(change)
     old = scan.labels(e.atoms_before or e.atoms, before)

@@ -140,12 +140,15 @@ def methods_text(scan: ScanView) -> list:
         "the switching bond path from the bond CP it runs into, which changes sign at the "
         "switch. Each new frame is placed by this model or by bisection, whichever keeps "
         "the number of frames within that of plain bisection plus three [7].",
-        "The uncertainty quoted with each estimate is one number: the error of the model "
-        "estimate (the difference between interpolations of successive degree, combined "
-        "with the effect of the CP positions' own error) when a model gave the estimate, "
-        "else half the bracket; it never exceeds half the bracket, within which the change "
-        "certainly lies. Grid spacing and the printed precision of the cube files limit "
-        "how close to a fold the frames can follow the pair; that limit is given for each "
-        "change under Cautions.",
+        "The uncertainty quoted with each estimate is one number. When a model gave the "
+        "estimate, it combines the model's calibrated error (the difference between "
+        "interpolations of successive degree, with the effect of the CP positions' own "
+        "error) and the resolution term (how far the grid's own catastrophe can lie from "
+        "the true one, converted into the coordinate) in quadrature, and the source named "
+        "is the larger of the two; otherwise, or when that would exceed it, it is half the "
+        "bracket, within which the change certainly lies. It is never more than half the "
+        "bracket. Grid spacing and the printed precision of the cube files limit how close "
+        "to a fold the frames can follow the pair; that limit is given for each change "
+        "under Cautions.",
     ]
     return paras

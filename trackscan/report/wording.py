@@ -250,7 +250,11 @@ def refine_words(scan: ScanView, change: Change) -> str:
     if isinstance(bis, int) and _finite(info.get("tolerance")):
         parts.append(f"plain bisection would need {plural(bis, 'new frame')} for the "
                      f"tolerance {scan.with_unit(fmt_sig(info['tolerance'], 3))}")
-    if "converged" in info:
+    lim = info.get("resolution_limit")
+    if _finite(lim):
+        parts.append(f"refinement stopped where the grids cannot narrow the change further "
+                     f"(limited by grid resolution: ± {scan.with_unit(fmt_uncertainty(lim))})")
+    elif "converged" in info:
         parts.append("tolerance reached" if info["converged"] else "tolerance NOT reached")
     fit = info.get("fold_fit")
     if isinstance(fit, dict) and fit.get("outside_bracket"):
