@@ -122,7 +122,7 @@ def test_html_tables_equal_scan_json(report):
             assert shown_equals(settings[key][1], value)
     # meaning and unit from the settings' docstrings, not the raw key
     assert settings["gtol"][3].startswith("Newton convergence")
-    assert settings["density_floor"][2] == "a.u. (e/bohr³)"
+    assert settings["density_floor"][2] == "a.u."
 
 
 def test_markdown_tables_equal_scan_json(report):

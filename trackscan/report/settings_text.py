@@ -16,7 +16,7 @@ __all__ = ["setting_meanings", "UNITS_IN_TEXT"]
 
 #: Units recognised after the type (``float, bohr``) or in parentheses in the text.
 UNITS_IN_TEXT = ("e/bohr^3", "bohr", "a.u.", "Å", "angstrom", "hartree", "degrees", "seconds")
-_UNIT_DISPLAY = {"e/bohr^3": "a.u. (e/bohr³)", "angstrom": "Å", "degrees": "°"}
+_UNIT_DISPLAY = {"e/bohr^3": "a.u.", "angstrom": "Å", "degrees": "°"}
 
 
 def _attributes(cls) -> dict:
