@@ -492,8 +492,8 @@ class ProbeRecord(_Model):
     expected : str or None
         Which side the probe was expected to fall on.
     model_estimate, delta : float or None
-    label : str or None
-        The frame's stable label (``r1``, ``r2``, ... in order of computation).
+    tolerance : float or None
+        The refine tolerance the probe was made for.
     """
 
     round: int | None = _key("round")
@@ -502,6 +502,7 @@ class ProbeRecord(_Model):
     expected: str | None = _key("expected", mode=_OPTIONAL)
     model_estimate: float | None = _key("model_estimate", mode=_OPTIONAL)
     delta: float | None = _key("delta", mode=_OPTIONAL)
+    tolerance: float | None = _key("tolerance", mode=_OPTIONAL)
     extra: dict = _extra()
 
 
@@ -765,7 +766,12 @@ class Change(_Model):
     evaluations : int or None
         New frames refinement computed for this change.
     refine : dict or None
-        The refinement record (initial bracket, tolerance, fits).
+        The refinement record (initial bracket, tolerance, convergence),
+        only on changes refinement touched.
+    fit : dict or None
+        The model fit behind the estimate: ``indicator`` (``d2`` for a
+        fold, the signed path offset for a conflict), its estimate, error
+        parts and samples.
     note : str or None
     mechanism_candidate : str or None
         What the events point to when `mechanism` is ``unresolved``.
@@ -786,6 +792,7 @@ class Change(_Model):
     uncertainty: Uncertainty | None = _key("uncertainty", kind=Uncertainty, mode=_OPTIONAL)
     evaluations: int | None = _key("evaluations", mode=_OPTIONAL)
     refine: dict | None = _key("refine", mode=_OPTIONAL)
+    fit: dict | None = _key("fit", mode=_OPTIONAL)
     note: str | None = _key("note", mode=_OPTIONAL)
     mechanism_candidate: str | None = _key("mechanism_candidate", mode=_OPTIONAL)
     resolution_limited: bool | None = _key("resolution_limited", mode=_OPTIONAL)

@@ -7,13 +7,14 @@ thing: a *change* (a structural change between two frames), a bond path
 (the calculations refinement adds), ρ in *a.u.*, lengths in *Å* in reports.
 
 Nothing here imports more than the standard library, so every layer may use it.
+Unit names and symbols live in :mod:`trackscan.units` (``unit_symbol``).
 """
 
 from __future__ import annotations
 
 __all__ = ["CHANGE", "CHANGES", "NEW_FRAMES", "DENSITY_UNIT", "LENGTH_UNIT", "EVENT_VERBS",
            "EVENT_SUBJECTS", "MECHANISMS", "ESTIMATE_METHODS", "UNCERTAINTY_SOURCES",
-           "CP_KIND_NAMES", "CP_KIND_SHORT", "unit_symbol", "event_phrase", "events_phrase",
+           "CP_KIND_NAMES", "CP_KIND_SHORT", "event_phrase", "events_phrase",
            "plural", "INDICATORS"]
 
 #: A structural change between two neighbouring frames (never "change point" or
@@ -73,24 +74,6 @@ CP_KIND_SHORT = {
     "nuclear": "n", "non_nuclear": "nna", "bond": "b", "ring": "r", "cage": "c",
     "degenerate": "deg.",
 }
-
-_UNIT_SYMBOLS = {
-    "angstrom": "Å", "angstroms": "Å", "ångström": "Å", "ångströms": "Å", "a": "Å", "å": "Å",
-    "ang": "Å", "bohr": "bohr", "bohrs": "bohr", "a0": "bohr",
-    "degree": "°", "degrees": "°", "deg": "°", "°": "°", "radian": "rad", "radians": "rad",
-    "rad": "rad",
-}
-
-
-def unit_symbol(unit) -> str:
-    """Short symbol of a coordinate unit for axes and headers (``"angstrom"`` -> ``"Å"``).
-
-    Unknown units (``"fraction"``) are returned as written; None or empty gives "".
-    """
-    if not unit:
-        return ""
-    return _UNIT_SYMBOLS.get(str(unit).strip().lower(), str(unit))
-
 
 def plural(n: int, word: str, many: str | None = None) -> str:
     """``"1 new frame"``, ``"3 new frames"``."""

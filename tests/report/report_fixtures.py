@@ -105,6 +105,7 @@ def ring_opening_scan() -> dict:
                        {"kind": "ring_lost", "cp": "r1", "track": "T-r1", "atoms": [1, 2, 3],
                         "fold_with": "T-b12"}],
             "evaluations": 1, "note": "", "structure_type_changed": True,
+            "fit": {"indicator": "d2", "samples": 2, "order": 1, "estimate": 1.8312345},
             "uncertainty": {"half_width": 0.1, "model_error": 0.0123},
             "refine": {"initial_bracket": [1.5, 1.9], "tolerance": 0.01, "converged": False,
                        "bisection_evaluations": 6},

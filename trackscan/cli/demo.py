@@ -85,7 +85,15 @@ def _needs_missing_pyscf(src: Path) -> bool:
 
 
 def _default_tolerance(manifest) -> float:
-    values = sorted({e.value for e in manifest.frames})
+    """A sixth of the smallest step of the listed frames (not the refined ones,
+    so that a rerun asks for the same tolerance and adds no frame)."""
+    from trackscan.analysis.assemble import recorded_frames
+
+    records = recorded_frames(manifest)
+    listed = [e for e in manifest.frames
+              if not isinstance((records.get(os.path.normcase(os.path.abspath(e.file))) or {})
+                                .get("refine"), dict)]
+    values = sorted({e.value for e in listed})
     steps = [b - a for a, b in zip(values, values[1:])]
     return TOLERANCE_FRACTION * min(steps)
 

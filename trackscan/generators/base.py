@@ -80,13 +80,12 @@ class Generator(abc.ABC):
     drive : CoordinateDrive or TrajectoryDrive, optional
         Source of geometries.
 
-    Attributes
-    ----------
-    is_model : bool
-        True for the built-in promolecular model (outputs must say so).
+    Notes
+    -----
+    A model density (the built-in promolecule) says so in the cube's first
+    comment line; the frame analysis reads that into the one model-density
+    flag, ``grid.density_model`` (:attr:`trackscan.model.Frame.is_model_density`).
     """
-
-    is_model = False
 
     def __init__(self, drive=None):
         self.drive = drive

@@ -31,8 +31,6 @@ class PromoleculeGenerator(Generator):
     line say so.
     """
 
-    is_model = True
-
     def __init__(self, drive, options: PromoleculeConfig = PromoleculeConfig()):
         if drive is None:
             raise ValueError("the promolecular model needs a geometry drive")

@@ -10,12 +10,15 @@ Per change (scan.json contract, DESIGN.md section 3, plus extensions):
   frame was added);
 - ``evaluations``: frames added by refinement inside the change's initial
   bracket (the bracket between frames not made by refinement);
-- ``uncertainty``: ``{"half_width": ..., "model_error": ...}`` -- half the
-  bracket, and the extrapolation's own error estimate (difference between
-  interpolation orders) when there is one;
-- ``refine``: ``initial_bracket``, ``tolerance``, ``converged`` and
-  ``bisection_evaluations`` (what plain bisection needs from the initial
-  bracket to the tolerance), and for folds ``fold_fit``.
+- ``uncertainty``: the one ± to quote (:func:`quoted_uncertainty`): ``value``
+  and ``source``, with ``half_width``, the calibrated ``model_error`` and the
+  ``resolution`` term beside it;
+- ``fit``: the model fit behind the estimate (fold extrapolation of d^2,
+  or the conflict's path-offset interpolation);
+- ``refine`` (only for changes that refinement touched): ``initial_bracket``,
+  ``tolerance``, ``converged`` and ``bisection_evaluations`` (what plain
+  bisection needs from the initial bracket to the tolerance), and
+  ``resolution_limit`` when the grids cannot narrow the bracket further.
 """
 
 from __future__ import annotations
@@ -120,7 +123,9 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None,
     changes : sequence of trackscan.model.Change
         The tracking result's changes.
     tolerance : float, optional
-        The refine tolerance, recorded with each change.
+        The refine tolerance, recorded with each change.  Without one (and
+        without frames made by refinement) a change carries no ``refine``
+        record.
     gtol : float
         Gradient tolerance the frames were analysed with.
 
@@ -139,14 +144,16 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None,
         method = ("bisection-midpoint" if ctx.evaluations
                   else ch.estimate_method or "bracket-midpoint")
         estimate, model_error, resolution = mid, None, None
+        fit_record = None
         info = {"initial_bracket": [float(x) for x in ctx.base]}
+        refined = bool(ctx.evaluations) or tolerance is not None
         spec = conflict_spec(ch)
         side = fold_side(ch)
         if spec is not None:
             samples = conflict_samples(frames, spec)
             fit = fit_crossing(samples, lo=lo, hi=hi)
             if fit is not None:
-                info["offset_fit"] = fit.to_dict()
+                fit_record = fit.to_dict()
                 if lo < fit.estimate < hi:
                     estimate, method = fit.estimate, CROSSING
                     model_error = MODEL_SAFETY * fit.error
@@ -155,7 +162,7 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None,
             samples = fold_samples(frames, side, gtol=gtol)
             fit = fit_fold(samples, absent=side.absent)
             if fit is not None:
-                info["fold_fit"] = fit.to_dict()
+                fit_record = fit.to_dict()
                 if lo < fit.estimate < hi and fit.truncation is not None:
                     estimate, method = fit.estimate, "fold-extrapolation"
                     # the order-drop difference, and the spread to the
@@ -168,7 +175,7 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None,
                               if tuple(p.tracks) == tuple(side.tracks)] if ch.resolution else []
                     resolution = _fold_resolution(samples, max(floors, default=0.0) or 0.0)
                 else:
-                    info["fold_fit"]["outside_bracket"] = True
+                    fit_record["outside_bracket"] = True
         if tolerance is not None:
             w0 = abs(ctx.base[1] - ctx.base[0])
             info["tolerance"] = float(tolerance)
@@ -178,7 +185,8 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None,
             ch, evaluations=ctx.evaluations, estimate=float(estimate), estimate_method=method,
             uncertainty=quoted_uncertainty(0.5 * width, model_error=model_error,
                                            resolution=resolution),
-            refine=info)
+            # a change that no refinement touched does not mention refinement
+            refine=info if refined else None, fit=fit_record)
         if tolerance is not None and not info["converged"]:
             lim = resolution_limit(new)
             if lim is not None:

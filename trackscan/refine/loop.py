@@ -281,7 +281,8 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
                 continue
             existing.add(v)
             meta = {"round": int(round_number), "method": prop.method,
-                    "bracket": [float(x) for x in ctx.change.bracket]}
+                    "bracket": [float(x) for x in ctx.change.bracket],
+                    "tolerance": float(tolerance)}
             if prop.method in MODEL_METHODS:
                 if prop.delta is not None:
                     meta["delta"] = float(prop.delta)

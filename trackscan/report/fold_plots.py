@@ -83,7 +83,7 @@ def fold_series(scan: ScanView, change):
 
 def _fit_samples(scan: ScanView, change, pair, x, d2):
     """The samples nearest the bracket on the pair's side, as refinement used them."""
-    fit = (change.refine or {}).get("fold_fit") if isinstance(change.refine, dict) else None
+    fit = change.fit
     k = int(fit.get("samples", DEFAULT_FIT_SAMPLES)) if isinstance(fit, dict) else \
         DEFAULT_FIT_SAMPLES
     order = np.argsort(np.abs(x - pair.frame.value))

@@ -16,7 +16,7 @@ from pathlib import Path
 
 from trackscan.errors import ParseError
 from trackscan.model import KINDS, Change, CriticalPoint, Frame, ScanResult
-from trackscan.vocabulary import unit_symbol
+from trackscan.units import unit_symbol
 
 __all__ = ["ScanView", "load_scan", "CP_KINDS", "Quoted", "quoted_uncertainty", "cp_by_track"]
 

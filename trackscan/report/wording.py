@@ -256,7 +256,7 @@ def refine_words(scan: ScanView, change: Change) -> str:
                      f"(limited by grid resolution: ± {scan.with_unit(fmt_uncertainty(lim))})")
     elif "converged" in info:
         parts.append("tolerance reached" if info["converged"] else "tolerance NOT reached")
-    fit = info.get("fold_fit")
+    fit = change.fit
     if isinstance(fit, dict) and fit.get("outside_bracket"):
         parts.append("the fold extrapolation fell outside the bracket and was not used")
     return ("; ".join(parts) + ".") if parts else ""

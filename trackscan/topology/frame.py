@@ -12,6 +12,7 @@ from __future__ import annotations
 import logging
 import time
 from dataclasses import dataclass, field as dc_field
+from functools import cached_property
 
 import networkx as nx
 import numpy as np
@@ -21,7 +22,7 @@ from trackscan.grid import DensityGrid
 from trackscan.progress import report as progress_report
 from trackscan.settings import AnalysisSettings
 from trackscan.topology.connect import connect_points, end_key
-from trackscan.topology.graph import build_graph
+from trackscan.topology.graph import molecular_graph
 from trackscan.topology.newton import merge_points
 from trackscan.topology.results import COUNT_KEYS, ID_PREFIX, KINDS, CriticalPoint, fix, sig
 from trackscan.topology.search import (Region, describe_points, exclusion_radii,
@@ -69,7 +70,6 @@ class FrameTopology:
 
     critical_points: list
     bond_paths: list
-    graph: nx.MultiGraph
     numbers: np.ndarray
     positions: np.ndarray
     grid_info: dict
@@ -80,6 +80,17 @@ class FrameTopology:
     field: str = FIELD_LABEL
     seeding_level: int = 0
     timings: dict = dc_field(default_factory=dict)
+
+    def to_frame(self):
+        """The frame as a :class:`trackscan.model.Frame` (not yet placed in a scan)."""
+        from trackscan.model import Frame
+
+        return Frame.from_dict(self.to_dict(), self.source or "frame")
+
+    @cached_property
+    def graph(self) -> nx.MultiGraph:
+        """Molecular graph (see :mod:`trackscan.topology.graph`)."""
+        return molecular_graph(self.to_frame())
 
     @property
     def counts(self) -> dict:
@@ -328,10 +339,9 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
                + ", ".join(bp.cp.id for bp in open_paths))
         warn(msg)
     all_cps = nuclear + attractors + bonds + rings_sorted + cages + degenerate
-    graph = build_graph(all_cps, paths, grid.numbers, complete=complete)
     timings["total"] = time.perf_counter() - t0
     report("done")
-    return FrameTopology(critical_points=all_cps, bond_paths=paths, graph=graph,
+    return FrameTopology(critical_points=all_cps, bond_paths=paths,
                          numbers=np.array(grid.numbers), positions=np.array(grid.positions),
                          grid_info=_grid_info(grid), poincare_hopf=ph, complete=complete,
                          warnings=warnings, source=grid.source, field=label,
