@@ -8,7 +8,7 @@ import pytest
 from trackscan.errors import ConfigError, GeneratorError
 from trackscan.io.xyz import read_xyz
 from trackscan.generators import make_generator
-from trackscan.generators.config import (
+from trackscan.io.generator_config import (
     CommandConfig, PromoleculeConfig, PySCFConfig, parse_generator_config,
 )
 

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from trackscan.generators import make_generator
-from trackscan.generators.config import parse_generator_config
+from trackscan.io.generator_config import parse_generator_config
 from trackscan.promolecule import MODEL_LABEL, Promolecule
 
 ase_cube = pytest.importorskip("ase.io.cube")

@@ -293,7 +293,7 @@ def load_scan(scan, *, source_dir=None) -> ScanView:
 
 
 def _from_dict(data, path):
-    from trackscan.model import ScanFormatError
+    from trackscan.errors import ScanFormatError
 
     try:
         return ScanResult.from_dict(data)
