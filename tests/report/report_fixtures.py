@@ -26,6 +26,8 @@ def _cp(cid, track, kind, pos, rho, lap, ev, atoms=None):
           "eigenvalues": ev}
     if kind == "bond":
         cp["ellipticity"] = ev[0] / ev[1] - 1.0
+        g, v = 0.3 * rho, -0.45 * rho          # made-up energy densities, H = G + V
+        cp["energy_densities"] = {"G": g, "V": v, "H": g + v, "approximate": "synthetic"}
     if atoms is not None:
         cp["atoms"] = atoms
     return cp
@@ -103,6 +105,7 @@ def ring_opening_scan() -> dict:
                        {"kind": "ring_lost", "cp": "r1", "track": "T-r1", "atoms": [1, 2, 3],
                         "fold_with": "T-b12"}],
             "evaluations": 1, "note": "", "structure_type_changed": True,
+            "fit": {"indicator": "d2", "samples": 2, "order": 1, "estimate": 1.8312345},
             "uncertainty": {"half_width": 0.1, "model_error": 0.0123},
             "refine": {"initial_bracket": [1.5, 1.9], "tolerance": 0.01, "converged": False,
                        "bisection_evaluations": 6},
@@ -114,6 +117,10 @@ def ring_opening_scan() -> dict:
                                       "rho_difference": 0.02, "rho_floor": 5.3e-4,
                                       "margin": 37.5}]},
         }],
+        "structures": [{"number": 1, "frames": [0, 1], "bond_paths": [[1, 2], [1, 3], [2, 3]],
+                        "rings": 1, "cages": 0, "non_nuclear": []},
+                       {"number": 2, "frames": [2, 3], "bond_paths": [[1, 3], [2, 3]],
+                        "rings": 0, "cages": 0, "non_nuclear": []}],
         "early_warnings": [{"track": "T-b12", "atoms": [1, 2], "frames": [1],
                             "indicators": ["ellipticity"], "projected": {"ellipticity": 1.8512},
                             "change_between": [1, 2],

@@ -47,9 +47,14 @@ def screenshot(html: Path, png: Path, profile: Path) -> None:
                    stderr=subprocess.DEVNULL)
 
 
+@pytest.fixture(scope="module")
+def files(tmp_path_factory):
+    return write_report(_fixture_scan(), tmp_path_factory.mktemp("browser") / "report",
+                        date="2026-12-01")
+
+
 @pytest.mark.skipif(_chromium() is None, reason="chromium is not installed")
-def test_report_renders_in_headless_chromium(tmp_path):
-    files = write_report(_fixture_scan(), tmp_path / "report", date="2026-12-01")
+def test_report_renders_in_headless_chromium(tmp_path, files):
     png = tmp_path / "shot.png"
     screenshot(files.html, png, tmp_path / "profile")
     img = mpimg.imread(png)[..., :3]
@@ -67,9 +72,8 @@ def test_report_renders_in_headless_chromium(tmp_path):
 
 
 @pytest.mark.skipif(_chromium() is None, reason="chromium is not installed")
-def test_report_prints_to_pdf(tmp_path):
+def test_report_prints_to_pdf(tmp_path, files):
     import re
-    files = write_report(_fixture_scan(), tmp_path / "report", date="2026-12-01")
     pdf = tmp_path / "report.pdf"
     cmd = [_chromium(), "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
            "--no-first-run", "--disable-background-networking", "--disable-component-update",

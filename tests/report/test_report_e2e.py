@@ -82,12 +82,12 @@ def test_report_tables_equal_scan_json(analysed):
     rows = page.tables["table-summary"]["rows"]
     assert len(rows) == len(scan["changes"])
     for row, ch in zip(rows, scan["changes"]):
-        lo, hi = R.numbers(row[1])
+        lo, hi = R.numbers(row[2])
         assert R.shown_equals(lo, ch["bracket"][0]) and R.shown_equals(hi, ch["bracket"][1])
-        assert R.shown_equals(R.numbers(row[2])[0], ch["estimate"])
+        assert R.shown_equals(R.numbers(row[3])[0], ch["estimate"])
         assert row[4] == ch["mechanism"]
-    assert "bond path C1–C2 breaks" in rows[0][5]
-    assert "annihilates with the bond CP of C1–C2 (fold)" in rows[0][5]
+    assert "bond path C1–C2 broken" in rows[0][5]
+    assert "lost (fold with the bond CP of C1–C2)" in rows[0][5]
     frames = page.tables["table-frames"]
     energy_col = frames["header"].index("Energy (hartree)")
     for row, f in zip(frames["rows"], scan["frames"]):
@@ -96,7 +96,7 @@ def test_report_tables_equal_scan_json(analysed):
         assert [int(x) for x in row[3:6]] == [f["counts"][k] for k in ("nuclear", "non_nuclear",
                                                                       "bond")]
     md = R.read_markdown_tables((out / "report.md").read_text(encoding="utf-8"))
-    summary = next(t for t in md if t["header"][0] == "#" and t["header"][1].startswith("Bracket"))
+    summary = next(t for t in md if t["header"][0] == "#" and t["header"][1] == "Frames")
     assert [r[1:5] for r in summary["rows"]] == [r[1:5] for r in rows]
 
 
@@ -108,10 +108,13 @@ def test_every_change_has_graphs_and_a_density_map_from_its_cubes(analysed):
         assert f'id="figure-density_change{k}"' in html
         assert (out / f"density_change{k}.png").is_file()
     assert "no density map" not in html
-    assert "cubic-spline interpolation" in html
-    for name in ("cp_counts", "bond_cp_properties", "fold_distance"):
-        assert (out / f"{name}.png").is_file()
+    assert "tricubic B-spline interpolation" in html
+    for name in ("cp_counts", "bond_cp_properties", "structures", "fold_change1"):
+        for ext in ("png", "svg", "pdf"):
+            assert (out / f"{name}.{ext}").is_file()
     assert (out / "energy.png").is_file()           # the manifest gives energies
+    # the energy profile comes first among the plots along the scan
+    assert html.index('id="figure-energy"') < html.index('id="figure-cp_counts"')
 
 
 def test_critical_points_csv_has_every_cp_with_its_track(analysed):
@@ -122,8 +125,19 @@ def test_critical_points_csv_has_every_cp_with_its_track(analysed):
     assert all(r["track"] for r in rows)
     nuclei = [r for r in rows if r["kind"] == "nuclear" and r["frame"] == "0"]
     # measured on the geometry as written in the cube (8 decimals in bohr)
-    assert float(nuclei[0]["coordinate"]) == pytest.approx(VALUES[0], abs=1e-6)
-    x = sorted(float(r["x_angstrom"]) for r in nuclei)
-    assert x[0] == pytest.approx(-VALUES[0] / 2, abs=1e-6)
-    assert x[-1] == pytest.approx(VALUES[0] / 2, abs=1e-6)
-    assert np.isfinite([float(r["rho"]) for r in rows]).all()
+    assert float(nuclei[0]["coordinate [angstrom]"]) == pytest.approx(VALUES[0], abs=1e-4)
+    x = sorted(float(r["x [angstrom]"]) for r in nuclei)
+    assert x[0] == pytest.approx(-VALUES[0] / 2, abs=1e-5)
+    assert x[-1] == pytest.approx(VALUES[0] / 2, abs=1e-5)
+    assert np.isfinite([float(r["rho [a.u.]"]) for r in rows]).all()
+
+
+def test_geometry_at_the_estimate_is_written_as_xyz(analysed):
+    scan, out = analysed
+    text = (out / "geometry_change1.xyz").read_text(encoding="utf-8").splitlines()
+    assert int(text[0]) == 3 and len(text) == 5
+    pos = np.array([[float(v) for v in line.split()[1:]] for line in text[2:]])
+    # the frames are listed (no generator): linear interpolation between the bracket
+    # frames, so the C1–C2 distance at the estimate equals the estimate itself (Å)
+    est = scan["changes"][0]["estimate"]
+    assert np.linalg.norm(pos[0] - pos[1]) == pytest.approx(est, abs=1e-6)

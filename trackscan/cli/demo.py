@@ -70,6 +70,20 @@ def _copy_inputs(src: Path, dst: Path) -> None:
             shutil.copy2(item, dst / item.name)
 
 
+def _needs_missing_pyscf(src: Path) -> bool:
+    """True when the demo's manifest computes densities with PySCF and PySCF is missing."""
+    import yaml
+
+    from trackscan.generators.pyscf_density import pyscf_available
+
+    try:
+        data = yaml.safe_load((src / "scan.yaml").read_text(encoding="utf-8")) or {}
+    except (OSError, yaml.YAMLError):
+        return False
+    generator = data.get("generator") if isinstance(data, dict) else None
+    return isinstance(generator, dict) and "pyscf" in generator and not pyscf_available()
+
+
 def _default_tolerance(manifest) -> float:
     """A sixth of the smallest step of the listed frames (not the refined ones,
     so that a rerun asks for the same tolerance and adds no frame)."""
@@ -100,6 +114,11 @@ def run(args) -> int:
     if args.tolerance is not None and not args.tolerance > 0:
         raise InputError(f"--tolerance must be > 0, got {args.tolerance:g}")
     src = scans_folder() / args.scan
+    if _needs_missing_pyscf(src):
+        from trackscan.generators.pyscf_density import INSTALL_HINT
+
+        raise InputError(f"the demo {args.scan!r} computes its densities with PySCF, which is "
+                         f"not installed: {INSTALL_HINT}")
     from trackscan.cli.outputs import output_folder
     from trackscan.io.ownership import claim_path
 

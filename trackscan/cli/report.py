@@ -35,6 +35,9 @@ def run(args) -> int:
     src = Path(args.scan)
     if not src.exists():
         raise InputError("no such scan.json or folder", src)
+    if src.is_dir() and not (src / "scan.json").is_file():
+        raise InputError("this folder holds no scan.json (run `trackscan analyze` on a scan "
+                         "manifest first, or give the path of a scan.json)", src)
     # a folder is trackscan's only when its marker says so: the user's own
     # report.md next to a copied scan.json is never replaced
     with output_folder(args.out if args.out else (src if src.is_dir() else src.parent)) as out:

@@ -45,7 +45,10 @@ try:  # optional dependency
 except ImportError:  # pragma: no cover - exercised only without PySCF
     gto = None
 
-__all__ = ["PySCFGenerator", "MissingPySCFError", "pyscf_available"]
+__all__ = ["PySCFGenerator", "MissingPySCFError", "pyscf_available", "INSTALL_HINT"]
+
+#: How to install PySCF, as README.md says it.
+INSTALL_HINT = "pip install -e '.[qc]'"
 
 logger = logging.getLogger(__name__)
 
@@ -55,7 +58,7 @@ _KEEP_GUESSES = 32
 
 
 class MissingPySCFError(GeneratorError, ImportError):
-    """PySCF is not installed (``pip install trackscan[qc]``)."""
+    """PySCF is not installed (:data:`INSTALL_HINT`)."""
 
 
 def pyscf_available() -> bool:
@@ -65,7 +68,7 @@ def pyscf_available() -> bool:
 
 def _require():
     if gto is None:
-        raise MissingPySCFError("the pyscf generator needs PySCF: pip install 'trackscan[qc]'")
+        raise MissingPySCFError(f"the pyscf generator needs PySCF: {INSTALL_HINT}")
 
 
 def _geometry_text(geom) -> str:

@@ -1,6 +1,9 @@
-"""Where a change happens: the atoms involved, the coalescing CP pair, the view plane.
+"""Where a change happens: the atoms involved, the fold pair, the view plane.
 
 Shared by the molecular-graph drawings, the density maps and the fold plots.
+Everything about the change itself (its events, which CPs fold together)
+is read from the typed :class:`trackscan.model.Change`; this module only
+adds geometry (planes, positions).
 """
 
 from __future__ import annotations
@@ -9,12 +12,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from trackscan.report.scan_data import ScanData, cp_by_id
+from trackscan.model import Change, Frame
+from trackscan.report.scan_view import ScanView, cp_by_track
 
-__all__ = ["Plane", "best_plane", "involved_atoms", "vanishing_tracks", "coalescing_pair",
-           "change_plane", "atom_positions"]
-
-_FOLD_PARTNERS = {("bond", "ring"), ("ring", "cage")}
+__all__ = ["Plane", "best_plane", "involved_atoms", "FoldPair", "fold_pair", "changed_tracks",
+           "change_plane", "frame_plane", "atom_positions", "switch_event"]
 
 
 @dataclass(frozen=True)
@@ -108,93 +110,99 @@ def _canon(v):
     return -v if v[np.argmax(np.abs(v))] < 0 else v
 
 
-def atom_positions(frame) -> dict:
+def atom_positions(frame: Frame | None) -> dict:
     """``{number: (3,) position in bohr}`` of a frame's atoms."""
-    return {a["number"]: np.asarray(a["position_bohr"], float)
-            for a in (frame or {}).get("atoms") or [] if a.get("position_bohr") is not None}
+    return {} if frame is None else {a.number: np.asarray(a.position_bohr, float)
+                                     for a in frame.atoms}
 
 
-def vanishing_tracks(scan: ScanData, change) -> tuple:
-    """Critical points present on only one side of a change.
+@dataclass(frozen=True)
+class FoldPair:
+    """The two CPs of a change's fold, in the frame where both exist.
 
-    Returns
-    -------
-    lost : list of dict
-        CPs (from the frame before) whose track is absent after the change.
-    born : list of dict
-        CPs (from the frame after) whose track is absent before.
-    Nuclear attractors are left out.  CPs without a ``track`` id are
-    compared by id.
+    Attributes
+    ----------
+    events : (Event, Event)
+        The change's two events that fold together (``fold_with``).
+    cps : (CriticalPoint, CriticalPoint)
+        The two CPs, lower Morse index first, in `frame`.
+    frame : Frame
+        The last frame before the change (an annihilation) or the first
+        after it (a birth).
+    side : {"before", "after"}
+    """
+
+    events: tuple
+    cps: tuple
+    frame: Frame
+    side: str
+
+    @property
+    def tracks(self) -> tuple:
+        return tuple(cp.track for cp in self.cps)
+
+    @property
+    def separation_bohr(self) -> float:
+        return float(np.linalg.norm(self.cps[0].position - self.cps[1].position))
+
+    @property
+    def midpoint(self) -> np.ndarray:
+        return 0.5 * (self.cps[0].position + self.cps[1].position)
+
+
+_ORDER = {"nuclear": 0, "non_nuclear": 0, "bond": 1, "ring": 2, "cage": 3}
+
+
+def fold_pair(scan: ScanView, change: Change) -> FoldPair | None:
+    """The fold pair of a change, from its events' ``fold_with`` (None without one).
+
+    When a change has several fold pairs, the first one listed.
     """
     before, after = scan.change_frames(change)
-
-    def keyed(frame):
-        out = {}
-        for cp in (frame or {}).get("critical_points") or []:
-            if cp.get("kind") == "nuclear":
-                continue
-            key = cp.get("track", cp.get("id"))
-            if key is not None:
-                out[key] = cp
-        return out
-
-    kb, ka = keyed(before), keyed(after)
-    lost = [kb[k] for k in sorted(kb, key=str) if k not in ka]
-    born = [ka[k] for k in sorted(ka, key=str) if k not in kb]
-    return lost, born
+    for a, b in change.fold_pairs():
+        side, frame = ("after", after) if a.is_birth else ("before", before)
+        ca, cb = cp_by_track(frame, a.track), cp_by_track(frame, b.track)
+        if ca is None or cb is None:
+            continue
+        cps = tuple(sorted((ca, cb), key=lambda cp: _ORDER.get(cp.kind, 9)))
+        return FoldPair((a, b), cps, frame, side)
+    return None
 
 
-def coalescing_pair(scan: ScanData, change):
-    """The pair of CPs that annihilate (or are born) in a fold change.
-
-    Returns
-    -------
-    tuple or None
-        ``(cp_a, cp_b, side)`` with ``side`` ``"before"`` (the pair exists
-        before the change and annihilates) or ``"after"`` (it is born); None
-        when the change has no such pair (e.g. a conflict).  Among several
-        candidate pairs the closest one is taken.
-    """
-    lost, born = vanishing_tracks(scan, change)
-    best = None
-    for side, cps in (("before", lost), ("after", born)):
-        for a in cps:
-            for b in cps:
-                if (a.get("kind"), b.get("kind")) not in _FOLD_PARTNERS:
-                    continue
-                pa, pb = a.get("position_bohr"), b.get("position_bohr")
-                if pa is None or pb is None:
-                    continue
-                d = float(np.linalg.norm(np.subtract(pa, pb)))
-                if best is None or d < best[0]:
-                    best = (d, a, b, side)
-    return None if best is None else best[1:]
+def switch_event(change: Change):
+    """The ``bond_switched`` event of a conflict, or None."""
+    for e in change.events:
+        if e.kind == "bond_switched":
+            return e
+    return None
 
 
-def involved_atoms(scan: ScanData, change) -> list:
+def changed_tracks(change: Change) -> set:
+    """Tracks of the CPs a change's events name (and their fold partners)."""
+    out = set()
+    for e in change.events:
+        if e.track is not None:
+            out.add(e.track)
+        if e.fold_with is not None:
+            out.add(e.fold_with)
+    return out
+
+
+def involved_atoms(scan: ScanView, change: Change) -> list:
     """Atom numbers most involved in a change, sorted.
 
-    The atoms named by its events, the ring atoms of ring CPs it names, and
-    the atoms of the CPs that appear or vanish.  When fewer than three are
-    found, the nearest other atoms (in the frame before) are added until
+    The atoms its events name (bond ends, ring atoms).  When fewer than
+    three, the nearest other atoms (in the frame before) are added until
     there are three, so a plane is defined.
     """
     before, after = scan.change_frames(change)
     nums = set()
-    for e in change.get("events") or []:
-        for key in ("atoms", "atoms_before", "atoms_after"):
-            nums.update(a for a in e.get(key) or [] if a is not None)
-        if e.get("cp") is not None:
-            for frame in (before, after):
-                cp = cp_by_id(frame, e["cp"])
-                if cp is not None and cp.get("kind") != "cage":
-                    nums.update(a for a in cp.get("atoms") or [] if isinstance(a, int))
-    lost, born = vanishing_tracks(scan, change)
-    for cp in lost + born:
-        if cp.get("kind") in ("bond", "ring"):
-            nums.update(a for a in cp.get("atoms") or [] if isinstance(a, int))
+    for e in change.events:
+        for atoms in (e.atoms, e.atoms_before, e.atoms_after):
+            nums.update(a for a in atoms or () if isinstance(a, int))
     pos = atom_positions(before) or atom_positions(after)
-    nums &= set(pos) if pos else nums
+    if pos:
+        nums &= set(pos)
     if pos and len(nums) < 3:
         centre = (np.mean([pos[n] for n in nums], axis=0) if nums
                   else np.mean(list(pos.values()), axis=0))
@@ -205,7 +213,7 @@ def involved_atoms(scan: ScanData, change) -> list:
     return sorted(nums)
 
 
-def change_plane(scan: ScanData, change):
+def change_plane(scan: ScanView, change: Change):
     """Best-fit plane of the atoms most involved in a change, or None without atoms."""
     before, after = scan.change_frames(change)
     nums = involved_atoms(scan, change)
@@ -217,3 +225,8 @@ def change_plane(scan: ScanData, change):
     if not pts:
         return None
     return best_plane(pts, context=ctx)
+
+
+def frame_plane(frame: Frame) -> Plane:
+    """Best-fit plane of all atoms of a frame (the view of a whole structure)."""
+    return best_plane([a.position_bohr for a in frame.atoms])

@@ -1,4 +1,10 @@
-"""Density maps: contour lines of ρ in the plane of the atoms most involved in a change.
+"""Density maps: ρ before and after a change, and the difference Δρ that shows the change.
+
+Three panels in the plane of the atoms most involved in a change: contour
+lines of ρ in the last frame before and the first after (logarithmic levels
+capped at :data:`CONTOUR_CAP` a.u., so the cores do not crowd the map), and
+Δρ = ρ(after) − ρ(before) at the same points (symmetric levels; solid where
+density grew, dashed where it fell).
 
 ρ on the plane comes from the frame's own cube file (its ``source`` in
 scan.json), read again with :func:`trackscan.io.cube.read_cube` and
@@ -28,21 +34,31 @@ from scipy import ndimage
 
 from trackscan.errors import TrackscanError
 from trackscan.report.change_geometry import (Plane, atom_positions, change_plane,
-                                              involved_atoms)
+                                              changed_tracks, fold_pair, involved_atoms)
 from trackscan.report.document import Figure
-from trackscan.report.graphs import changed_keys, draw_graph, frames_features, legend_handles
-from trackscan.report.scan_data import ScanData
-from trackscan.report.style import new_figure, to_png
-from trackscan.report.wording import change_decimals, fmt_coord
+from trackscan.report.graphs import panel_title, draw_graph, legend_handles, place_atom_labels
+from trackscan.report.scan_view import ScanView
+from trackscan.report.style import (FONT_SIZE, OKABE_ITO, legend_below, new_figure, render,
+                                    styled)
+from trackscan.report.wording import change_decimals, fmt_sig
 from trackscan.units import ANGSTROM_IN_BOHR, BOHR_IN_ANGSTROM
 
-__all__ = ["density_on_plane", "contour_levels", "frame_density", "density_map_figure",
-           "MAP_POINTS", "MAP_MARGIN_ANGSTROM"]
+__all__ = ["density_on_plane", "contour_levels", "difference_levels", "frame_density",
+           "density_map_figure", "MAP_POINTS", "MAP_MARGIN_ANGSTROM", "CONTOUR_CAP",
+           "CONTOUR_FLOOR"]
 
 logger = logging.getLogger(__name__)
 
 #: Points per side of the sampled square.
-MAP_POINTS = 161
+MAP_POINTS = 121
+#: Highest ρ contour (a.u.): bond CPs lie below it (C≡C about 0.4), cores far above.
+CONTOUR_CAP = 0.5
+#: Lowest ρ contour (a.u.): the outer valence region.
+CONTOUR_FLOOR = 1e-3
+#: Δρ levels span this many decades below the largest |Δρ| shown.
+DIFFERENCE_DECADES = 2
+#: Largest |Δρ| level (a.u.); larger differences sit at moving nuclei.
+DIFFERENCE_CAP = 0.05
 #: Margin (Å) around the projected involved atoms.
 MAP_MARGIN_ANGSTROM = 1.2
 _MIN_SIDE_ANGSTROM = 3.0
@@ -87,24 +103,41 @@ def density_on_plane(grid, points) -> np.ndarray:
     return vals
 
 
-def contour_levels(values) -> np.ndarray:
-    """Logarithmic contour levels 1, 2, 5 × 10^n spanning the finite positive values."""
+def contour_levels(values, *, cap: float = CONTOUR_CAP, floor: float = CONTOUR_FLOOR):
+    """Logarithmic contour levels 1, 2, 5 × 10^n within the values, between `floor` and `cap`."""
     v = np.asarray(values, float)
     v = v[np.isfinite(v) & (v > 0)]
     if v.size == 0:
         return np.array([])
-    lo, hi = max(float(v.min()), 1e-4), float(v.max())
+    lo, hi = max(float(v.min()), floor), min(float(v.max()), cap)
     levels = [m * 10.0 ** n for n in range(-5, 4) for m in (1.0, 2.0, 5.0)]
-    return np.array([x for x in levels if lo <= x <= hi])
+    return np.array([x for x in levels if lo <= x <= hi * (1 + 1e-12)])
 
 
-def _is_model(scan: ScanData) -> bool:
-    src = scan.scan.get("density_source")
-    text = str(src).lower()
-    return "promolecul" in text
+def difference_levels(diff) -> np.ndarray:
+    """Symmetric levels ±1, 2, 5 × 10^n for a difference map (empty when it is zero).
+
+    The top level is the largest 1-2-5 value below the 99th percentile of
+    |Δρ| (at most :data:`DIFFERENCE_CAP`), the lowest
+    :data:`DIFFERENCE_DECADES` decades under it.
+    """
+    d = np.abs(np.asarray(diff, float))
+    d = d[np.isfinite(d)]
+    if d.size == 0 or not np.any(d > 0):
+        return np.array([])
+    top = min(float(np.percentile(d, 99)), DIFFERENCE_CAP)
+    if top <= 0:
+        return np.array([])
+    levels = [m * 10.0 ** n for n in range(-8, 2) for m in (1.0, 2.0, 5.0)]
+    pos = [x for x in levels if top * 10.0 ** -DIFFERENCE_DECADES <= x <= top]
+    return np.array(sorted([-x for x in pos] + pos))
 
 
-def frame_density(scan: ScanData, frame):
+def _is_model(scan: ScanView) -> bool:
+    return scan.is_model_density or "promolecul" in str(scan.header.density_source).lower()
+
+
+def frame_density(scan: ScanView, frame):
     """A function giving ρ at points (bohr) for a frame, and where it comes from.
 
     Returns
@@ -116,29 +149,21 @@ def frame_density(scan: ScanData, frame):
     reason = "the frame has no source file"
     if path is not None:
         if path.is_file():
+            from trackscan.io.cube import read_cube
             try:
-                from trackscan.io.cube import read_cube
-            except ImportError:
-                reason = "no cube reader in this installation"
+                grid = read_cube(path)
+            except (TrackscanError, OSError, ValueError) as exc:
+                reason = f"cube could not be read ({exc})"
             else:
-                try:
-                    grid = read_cube(path)
-                except (TrackscanError, OSError, ValueError) as exc:
-                    reason = f"cube could not be read ({exc})"
-                else:
-                    return (lambda pts: density_on_plane(grid, pts)), \
-                        f"cube {path.name}, cubic-spline interpolation"
+                return (lambda pts: density_on_plane(grid, pts)), \
+                    "the frames' cube files, tricubic B-spline interpolation"
         else:
             reason = ("cube not found (relative paths are looked up in the manifest's "
                       "folder, given as source_dir or --source-dir, then beside scan.json)")
-    if _is_model(scan) and frame.get("atoms"):
-        try:
-            from trackscan.promolecule import Promolecule
-        except ImportError:
-            return None, reason
-        atoms = frame["atoms"]
-        model = Promolecule([a["Z"] for a in atoms], [a["position_bohr"] for a in atoms])
-        return model.value, "promolecular model, evaluated exactly"
+    if _is_model(scan) and frame.atoms:
+        from trackscan.promolecule import Promolecule
+        model = Promolecule([a.Z for a in frame.atoms], [a.position_bohr for a in frame.atoms])
+        return model.value, "the promolecular model, evaluated exactly"
     return None, reason
 
 
@@ -156,15 +181,15 @@ def _extent(scan, change, plane: Plane):
     return centre - side / 2, centre + side / 2
 
 
-def density_map_figure(scan: ScanData, change, number: int):
-    """Contour maps of ρ before and after a change, with bond paths and CPs.
+@styled
+def density_map_figure(scan: ScanView, change, number: int):
+    """ρ before, ρ after and Δρ in the plane of a change, with bond paths and CPs.
 
     Returns
     -------
     (Figure or None, str or None)
         The figure, and a sentence explaining any panel without a map (None
-        when both panels have one).  The figure is None when neither frame
-        has a density available or the frames have no atoms.
+        when both frames have a density).
     """
     plane = change_plane(scan, change)
     if plane is None:
@@ -176,7 +201,7 @@ def density_map_figure(scan: ScanData, change, number: int):
     uu, vv = np.meshgrid(u, v)
     pts = plane.lift(np.stack([uu.ravel(), vv.ravel()], axis=1) * ANGSTROM_IN_BOHR)
     involved = involved_atoms(scan, change)
-    changed = changed_keys(scan, change)
+    changed = changed_tracks(change)
     panels, missing, origins = [], [], set()
     for frame, side in ((before, "before"), (after, "after")):
         if frame is None:
@@ -185,8 +210,8 @@ def density_map_figure(scan: ScanData, change, number: int):
             continue
         rho, origin = frame_density(scan, frame)
         if rho is None:
-            src = f", {frame['source']}" if frame.get("source") else ""
-            missing.append((f"frame {frame.get('index')} ({side}{src})", origin))
+            src = f", {frame.source}" if frame.source else ""
+            missing.append((f"frame {scan.frame_label(frame)} ({side}{src})", origin))
             panels.append(None)
             continue
         origins.add(origin)
@@ -203,39 +228,80 @@ def density_map_figure(scan: ScanData, change, number: int):
     finite = np.concatenate([p[np.isfinite(p)] for p in panels if p is not None])
     levels = contour_levels(finite)
     norm = LogNorm(vmin=levels[0], vmax=levels[-1]) if len(levels) > 1 else None
-    fig = new_figure(10.0, 5.0)
-    axes = fig.subplots(1, 2)
+    diff = panels[1] - panels[0] if all(p is not None for p in panels) else None
+    dlevels = difference_levels(diff) if diff is not None else np.array([])
+    fig = new_figure(2, 2.9)
+    axes = list(fig.subplots(1, 3 if diff is not None else 2))
     d = change_decimals(change)
-    mappable = None
-    kinds = frames_features((before, after))
+    spots = []
     for ax, frame, rho, side in zip(axes, (before, after), panels, ("before", "after")):
         if rho is None:
             ax.text(0.5, 0.5, "no density available", ha="center", transform=ax.transAxes)
             ax.set_axis_off()
+            spots.append([])
             continue
         if len(levels) > 1:
-            # interpolation can undershoot to <= 0 far out; no log contour lives there
-            mappable = ax.contour(uu, vv, np.where(np.isfinite(rho) & (rho > 0), rho, np.nan),
-                                  levels=levels, cmap=_CONTOUR_CMAP, norm=norm, linewidths=0.8)
-        draw_graph(ax, scan, frame, plane, involved=involved, changed=changed)
-        ax.set_aspect("equal", adjustable="box")
-        ax.set_xlim(lo[0], hi[0])
-        ax.set_ylim(lo[1], hi[1])
-        ax.set_title(f"{side}: frame {frame.get('index')}, {scan.coordinate_label} = "
-                     f"{fmt_coord(frame.get('value'), d)} {scan.unit_symbol}".rstrip(),
-                     fontsize=10)
-    axes[0].set_ylabel("in-plane v (Å)")
-    handles = [Line2D([], [], color="#6b6b6b", lw=0.8,
-                      label="ρ contour (log levels 1, 2, 5 × 10ⁿ)")]
-    fig.legend(handles=handles + legend_handles(kinds), loc="lower center", ncol=3,
-               fontsize=8, frameon=False, bbox_to_anchor=(0.5, 0.0))
-    fig.subplots_adjust(bottom=0.24)
-    if mappable is not None:
-        cbar = fig.colorbar(mappable, ax=list(axes), shrink=0.8, pad=0.02)
-        cbar.set_label("ρ (e/bohr³)")
+            ax.contour(uu, vv, np.where(np.isfinite(rho) & (rho > 0), rho, np.nan),
+                       levels=levels, cmap=_CONTOUR_CMAP, norm=norm, linewidths=0.6)
+        spots.append(draw_graph(ax, scan, frame, plane, involved=involved, changed=changed))
+    pair = fold_pair(scan, change)
+    if diff is not None:
+        ax = axes[2]
+        if len(dlevels):
+            neg, pos = dlevels[dlevels < 0], dlevels[dlevels > 0]
+            if len(neg):
+                ax.contour(uu, vv, diff, levels=neg, colors=OKABE_ITO["blue"],
+                           linestyles="dashed", linewidths=0.6)
+            if len(pos):
+                ax.contour(uu, vv, diff, levels=pos, colors=OKABE_ITO["vermillion"],
+                           linestyles="solid", linewidths=0.6)
+        draw_graph(ax, scan, after, plane, involved=involved, changed=changed, labels=False)
+        if pair is not None:
+            uv = plane.project(pair.midpoint)[0] * BOHR_IN_ANGSTROM
+            ax.scatter([uv[0]], [uv[1]], marker="x", color="black", s=30, linewidths=1.4,
+                       zorder=6, gid="cp-marker")
+    for ax in axes:
+        if ax.axison:
+            ax.set_aspect("equal", adjustable="box")
+            ax.set_xlim(lo[0], hi[0])
+            ax.set_ylim(lo[1], hi[1])
+            ax.set_xlabel("u (Å)")
+            ax.tick_params(labelsize=FONT_SIZE - 1)
+    axes[0].set_ylabel("v (Å)")
+    fig.subplots_adjust(wspace=0.25)
+    for ax, frame, side in zip(axes, (before, after), ("before", "after")):
+        if frame is not None and ax.axison:
+            panel_title(ax, fig, scan, frame, side, d)
+    if diff is not None:
+        axes[2].set_title("Δρ = after − before", loc="left", fontsize=FONT_SIZE)
+    for ax, sp in zip(axes, spots):
+        place_atom_labels(ax, fig, sp)
+    handles = []
+    if len(levels) > 1:
+        handles.append(Line2D([], [], color="#6b6b6b", lw=0.6,
+                              label=f"ρ contour ({fmt_sig(levels[0], 1)}–"
+                                    f"{fmt_sig(levels[-1], 1)} a.u.)"))
+    if len(dlevels):
+        handles += [Line2D([], [], color=OKABE_ITO["vermillion"], lw=0.6,
+                           label="Δρ > 0 (density gained)"),
+                    Line2D([], [], color=OKABE_ITO["blue"], lw=0.6, ls="--",
+                           label="Δρ < 0 (density lost)")]
+    handles += legend_handles((before, after), pair=pair is not None)
+    legend_below(fig, axes, handles, ncol=3)
     labels = ", ".join(scan.label(n, before or after) for n in involved)
-    return Figure(f"density_change{number}", to_png(fig),
-                  f"Change {number}: contour lines of ρ (logarithmic levels) in the best-fit "
-                  f"plane of {labels}, with bond paths and CPs projected onto it. "
-                  f"Density from: {'; '.join(sorted(origins))}.",
-                  f"density map around change {number}"), note
+    text = (f"Change {number}: electron density ρ in the best-fit plane of {labels}, in the "
+            f"last frame before and the first frame after the change (logarithmic contour "
+            f"levels 1, 2, 5 × 10ⁿ a.u. from {fmt_sig(levels[0] if len(levels) else 0, 1)} "
+            f"to {fmt_sig(levels[-1] if len(levels) else 0, 1)} a.u.; the cores, far above, "
+            f"are left blank), with bond paths and CPs projected onto the plane.")
+    if diff is not None and len(dlevels):
+        text += (f" Right: Δρ = ρ(after) − ρ(before) at the same points, levels ±1, 2, 5 × "
+                 f"10ⁿ a.u. from {fmt_sig(dlevels[dlevels > 0][0], 1)} to "
+                 f"{fmt_sig(dlevels[-1], 1)} a.u.; solid where density was gained, dashed "
+                 "where it was lost (the atoms move between the two frames, so Δρ also "
+                 "shows their displacement).")
+        if pair is not None:
+            text += " The cross marks where the fold pair was."
+    text += f" Density from {'; '.join(sorted(origins))}."
+    return Figure(f"density_change{number}", render(fig), text,
+                  f"density maps around change {number}"), note

@@ -54,22 +54,40 @@ class Table:
 
 @dataclass(frozen=True)
 class Figure:
-    """A PNG image with its caption.
+    """A figure with its caption, rendered as PNG (300 dpi), SVG and PDF.
 
     Parameters
     ----------
     name : str
-        File stem for the Markdown report (``NAME.png`` beside report.md).
-    png : bytes
+        File stem (``NAME.png``, ``NAME.svg``, ``NAME.pdf`` in the report folder).
+    files : trackscan.report.style.FigureFiles
+        The three renderings (same content).
     caption : str
     alt : str
         Short text alternative.
     """
 
     name: str
-    png: bytes
+    files: object
     caption: str
     alt: str = ""
+
+    @property
+    def png(self) -> bytes:
+        return self.files.png
+
+    @property
+    def svg(self) -> bytes:
+        return self.files.svg
+
+    @property
+    def pdf(self) -> bytes:
+        return self.files.pdf
+
+    @property
+    def width_in(self) -> float:
+        """Printed width (inches) of the figure as laid out."""
+        return self.files.size_in[0]
 
 
 @dataclass(frozen=True)

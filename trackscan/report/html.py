@@ -1,6 +1,7 @@
 """Render the report document as one self-contained HTML page.
 
-Images are embedded as base64 PNG data URIs; the page loads nothing from the
+Images are embedded as base64 PNG data URIs (each links its SVG and PDF
+files beside the page); the page loads nothing from the
 network, prints cleanly (figures are not split across pages, collapsed
 sections open for printing) and needs no script to read.
 """
@@ -84,11 +85,19 @@ def _table(t: Table) -> str:
     return "\n".join(out)
 
 
+#: CSS pixels per inch of printed figure width (figures show a little above print size).
+_PX_PER_INCH = 120
+
+
 def _figure(f: Figure) -> str:
     data = base64.b64encode(f.png).decode("ascii")
-    return (f'<figure id="figure-{escape(f.name)}"><img src="data:image/png;base64,{data}" '
-            f'alt="{escape(f.alt or f.name)}"><figcaption>{escape(f.caption)}</figcaption>'
-            "</figure>")
+    width = int(round(f.width_in * _PX_PER_INCH))
+    name = escape(f.name)
+    return (f'<figure id="figure-{name}"><img src="data:image/png;base64,{data}" '
+            f'alt="{escape(f.alt or f.name)}" style="width:{width}px">'
+            f"<figcaption>{escape(f.caption)} <span class=\"files\">"
+            f'(<a href="{name}.svg">SVG</a>, <a href="{name}.pdf">PDF</a>)</span>'
+            "</figcaption></figure>")
 
 
 def _block(b) -> str:

@@ -1,4 +1,4 @@
-"""Render the report document as Markdown (report.md), images as PNG files beside it."""
+"""Render the report document as Markdown (report.md); figures are the PNG files beside it."""
 
 from __future__ import annotations
 
@@ -42,7 +42,8 @@ def _block(b) -> str:
     if isinstance(b, Table):
         return _table(b)
     if isinstance(b, Figure):
-        return f"![{_text(b.alt or b.name)}]({image_name(b)})\n\n*{_text(b.caption)}*"
+        return (f"![{_text(b.alt or b.name)}]({image_name(b)})\n\n*{_text(b.caption)}* "
+                f"([SVG]({b.name}.svg), [PDF]({b.name}.pdf))")
     if isinstance(b, Paragraph):
         return f"> **Note.** {_text(b.text)}" if b.note else _text(b.text)
     if isinstance(b, BulletList):

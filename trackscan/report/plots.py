@@ -1,8 +1,8 @@
-"""Plots against the scanned coordinate: CP counts, bond-CP properties, energy, fold distances.
+"""Plots against the scanned coordinate: energy, CP counts, bond-CP properties.
 
-Each function returns a :class:`~trackscan.report.document.Figure` (PNG bytes
-and caption) or None when the scan has nothing to show for it.  Change
-brackets are shaded and estimates drawn as dashed lines in every plot.
+Each function returns a :class:`~trackscan.report.document.Figure` or None
+when the scan has nothing to show for it.  Change brackets are shaded and
+estimates drawn as dashed lines, numbered as in the tables.
 """
 
 from __future__ import annotations
@@ -11,345 +11,254 @@ import numpy as np
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from trackscan.report.change_geometry import coalescing_pair
+from trackscan.report.change_geometry import changed_tracks
 from trackscan.report.document import Figure
-from trackscan.report.scan_data import CP_KINDS, ScanData, frame_energy
-from trackscan.report.style import (BRACKET_STYLE, CP_STYLE, ESTIMATE_STYLE, LINE_COLOURS,
-                                    LINE_STYLES, new_figure, to_png)
-from trackscan.units import BOHR_IN_ANGSTROM, HARTREE_IN_KCAL_PER_MOL
+from trackscan.report.scan_view import CP_KINDS, ScanView
+from trackscan.report.style import (BRACKET_STYLE, CONTEXT_GREY, CP_STYLE, ESTIMATE_STYLE,
+                                    LINE_COLOURS, legend_below, new_figure, render, settle,
+                                    styled, wrap_to_width)
+from trackscan.units import HARTREE_IN_KCAL_PER_MOL
+from trackscan.vocabulary import CP_KIND_NAMES
 
-__all__ = ["counts_plot", "bond_cp_plot", "energy_plot", "fold_distance_plot", "fold_zoom_plot",
-           "fold_series", "bond_tracks", "MAX_LINES", "ZOOM_FRAMES"]
+__all__ = ["counts_plot", "bond_cp_plot", "energy_plot", "bond_groups", "mark_changes",
+           "change_handles", "set_xlabel", "EQUIVALENCE_RTOL"]
 
-# Marker shapes cycled through the bond paths, so coinciding lines stay distinguishable.
-_MARKERS = ("o", "s", "^", "D", "v", "P")
-
-#: Most bond paths drawn in the bond-CP plot (the ones involved in changes first).
-MAX_LINES = 12
-
-
-def _xlabel(scan: ScanData) -> str:
-    unit = scan.unit_symbol
-    return f"{scan.coordinate_label} ({unit})" if unit else scan.coordinate_label
+#: Bond paths whose ρ, ∇²ρ and ε agree to this relative tolerance in every
+#: frame (and that link the same elements) are drawn as one line.
+EQUIVALENCE_RTOL = 2e-3
+_EQUIVALENCE_ATOL = 1e-5
 
 
-def _mark_changes(ax, scan: ScanData, *, numbers: bool = True) -> None:
+def set_xlabel(ax, scan: ScanView, fig) -> None:
+    """The coordinate label with its unit, wrapped to the width of the axes."""
+    settle(fig)
+    width = ax.get_position().width * fig.get_figwidth()
+    ax.set_xlabel(wrap_to_width(fig, scan.axis_label, width))
+
+
+def mark_changes(ax, scan: ScanView, *, numbers: bool = True) -> None:
+    """Shade each change's bracket, draw its estimate, number it above the axes."""
     for k, change in enumerate(scan.changes, 1):
-        bracket = change.get("bracket")
-        if bracket:
-            style = dict(BRACKET_STYLE)
-            if change.get("mechanism") == "unresolved":
-                style = dict(facecolor=style.pop("color"), hatch="///", edgecolor="#666666",
-                             **style)
-            ax.axvspan(min(bracket), max(bracket), **style)
-        est = change.get("estimate")
-        x = est if isinstance(est, (int, float)) else (sum(bracket) / 2 if bracket else None)
-        if isinstance(est, (int, float)):
-            ax.axvline(est, **ESTIMATE_STYLE)
-        if numbers and x is not None:
+        lo, hi = sorted(change.bracket)
+        style = dict(BRACKET_STYLE)
+        if change.mechanism == "unresolved":
+            style = dict(facecolor=style.pop("color"), hatch="///", edgecolor="#666666", **style)
+        ax.axvspan(lo, hi, **style)
+        x = scan.estimate(change)
+        ax.axvline(x, **ESTIMATE_STYLE)
+        if numbers:
             ax.annotate(str(k), (x, 1.0), xycoords=("data", "axes fraction"),
-                        xytext=(0, 2), textcoords="offset points", ha="center", va="bottom",
-                        fontsize=8, color=ESTIMATE_STYLE["color"])
+                        xytext=(0, 1.5), textcoords="offset points", ha="center",
+                        va="bottom", fontsize=6.5, color=ESTIMATE_STYLE["color"])
 
 
-def _orient(ax, scan: ScanData) -> None:
-    """Let the scan run from left to right (call once per group of shared x axes)."""
+def orient(ax, scan: ScanView) -> None:
+    """Let the scan run from left to right (once per group of shared x axes)."""
     if scan.descending:
         ax.invert_xaxis()
 
 
-def _change_handles(scan: ScanData) -> list:
+def change_handles(scan: ScanView) -> list:
+    """Legend entries for the change marks (only those drawn)."""
     if not scan.changes:
         return []
-    handles = [Patch(facecolor=BRACKET_STYLE["color"], alpha=0.5,
-                     label="change bracket (number above)")]
-    if any(c.get("mechanism") == "unresolved" for c in scan.changes):
+    handles = [Patch(facecolor=BRACKET_STYLE["color"], alpha=0.5, label="bracket of a change")]
+    if any(c.mechanism == "unresolved" for c in scan.changes):
         handles.append(Patch(facecolor=BRACKET_STYLE["color"], alpha=0.5, hatch="///",
                              edgecolor="#666666", label="unresolved change"))
-    handles.append(Line2D([], [], **ESTIMATE_STYLE, label="change estimate"))
+    handles.append(Line2D([], [], **ESTIMATE_STYLE, label="estimate (number: change)"))
     return handles
 
 
-def counts_plot(scan: ScanData):
-    """Step plot of CP counts by kind against the coordinate.
+@styled
+def energy_plot(scan: ScanView):
+    """Energy relative to the lowest frame (kcal/mol), or None without energies."""
+    pts = [(f.value, scan.energy(f), f.is_refined) for f in scan.frames
+           if scan.energy(f) is not None]
+    if not pts:
+        return None
+    x = np.array([p[0] for p in pts], float)
+    e = np.array([p[1] for p in pts], float)
+    new = np.array([p[2] for p in pts], bool)
+    e_min = float(e.min())
+    rel = (e - e_min) * HARTREE_IN_KCAL_PER_MOL
+    fig = new_figure(1, 2.3)
+    ax = fig.add_subplot()
+    colour = LINE_COLOURS[0]
+    ax.plot(x, rel, color=colour, lw=1.1, zorder=2)
+    ax.scatter(x[~new], rel[~new], color=colour, s=10, zorder=3)
+    handles = [Line2D([], [], color=colour, marker="o", ms=3, label="frame")]
+    if new.any():
+        ax.scatter(x[new], rel[new], facecolors="white", edgecolors=colour, s=12, zorder=3)
+        handles.append(Line2D([], [], ls="none", marker="o", ms=3.5, markerfacecolor="white",
+                              markeredgecolor=colour, label="new frame (refinement)"))
+    mark_changes(ax, scan)
+    ax.set_ylabel("E − E$_\\mathrm{min}$ (kcal/mol)")
+    orient(ax, scan)
+    ax.grid(alpha=0.3, lw=0.4)
+    ax.legend(handles=handles + change_handles(scan), loc="best", frameon=True,
+              framealpha=0.85, edgecolor="none")
+    set_xlabel(ax, scan, fig)
+    marks = ("; dashed lines: the estimate of each change, numbered as in the tables"
+             if scan.changes else "")
+    return Figure("energy", render(fig),
+                  f"Energy profile along the scan, relative to the lowest frame (E_min = "
+                  f"{e_min:.8f} hartree; 1 hartree = {HARTREE_IN_KCAL_PER_MOL:.2f} kcal/mol)"
+                  f"{marks}.", "energy profile")
 
-    Returns None when the frames carry no counts.
-    """
-    frames = [f for f in scan.frames if f.get("counts")]
+
+@styled
+def counts_plot(scan: ScanView):
+    """Step plot of the number of CPs of each kind against the coordinate."""
+    frames = [f for f in scan.frames if f.counts]
     if not frames:
         return None
-    x = np.array([f["value"] for f in frames], float)
-    kinds = [k for k in CP_KINDS if any(f["counts"].get(k, 0) for f in frames)]
-    refined = np.array([isinstance(f.get("refine"), dict) for f in frames])
-    fig = new_figure(7.5, 3.8)
+    x = np.array([f.value for f in frames], float)
+    kinds = [k for k in CP_KINDS if any(f.counts.get(k, 0) for f in frames)]
+    new = np.array([f.is_refined for f in frames])
+    fig = new_figure(1, 2.5)
     ax = fig.add_subplot()
     handles = []
     for j, kind in enumerate(kinds):
         st = CP_STYLE[kind]
-        y = np.array([f["counts"].get(kind, 0) for f in frames], float)
-        offset = 0.06 * (j - (len(kinds) - 1) / 2)
-        ax.step(x, y + offset, where="post", color=st["color"], lw=1.4)
-        for sel, face in ((~refined, st["color"]), (refined, "white")):
+        y = np.array([f.counts.get(kind, 0) for f in frames], float)
+        offset = 0.08 * (j - (len(kinds) - 1) / 2)
+        ax.step(x, y + offset, where="post", color=st["color"], lw=1.0)
+        for sel, face in ((~new, st["color"]), (new, "white")):
             if sel.any():
                 ax.scatter(x[sel], y[sel] + offset, marker=st["marker"], facecolors=face,
-                           edgecolors=st["color"], s=st["size"] * 0.6, zorder=3, linewidths=1.0)
-        handles.append(Line2D([], [], color=st["color"], marker=st["marker"], lw=1.4,
-                              label=st["label"].split(" (")[0]))
-    _mark_changes(ax, scan)
-    handles.append(Line2D([], [], color="none", label="markers: sampled frames"))
-    if refined.any():
-        handles.append(Line2D([], [], marker="o", ls="none", markerfacecolor="white",
-                              markeredgecolor="black", label="open marker: added by refinement"))
-    ax.set_xlabel(_xlabel(scan))
+                           edgecolors=st["color"], s=st["size"] * 0.7, zorder=3, linewidths=0.7)
+        handles.append(Line2D([], [], color=st["color"], marker=st["marker"], lw=1.0, ms=4,
+                              label=CP_KIND_NAMES[kind].replace("nucleus", "nuclei")
+                              if kind == "nuclear" else CP_KIND_NAMES[kind] + "s"))
+    if new.any():
+        handles.append(Line2D([], [], marker="o", ls="none", markerfacecolor="white", ms=4,
+                              markeredgecolor="black", label="new frame (refinement)"))
+    mark_changes(ax, scan)
     ax.set_ylabel("number of CPs")
-    _orient(ax, scan)
+    orient(ax, scan)
     ax.yaxis.get_major_locator().set_params(integer=True)
-    ax.legend(handles=handles + _change_handles(scan), loc="center left",
-              bbox_to_anchor=(1.01, 0.5), fontsize=8, frameon=False)
-    ax.grid(alpha=0.3, lw=0.5)
-    return Figure("cp_counts", to_png(fig),
-                  "Critical points of each kind against the coordinate (step plot; a count "
-                  "holds from a frame to the next; lines offset by a few hundredths so "
-                  "equal counts stay visible). Shaded: change brackets; dashed: estimates.",
+    ax.grid(alpha=0.3, lw=0.4)
+    set_xlabel(ax, scan, fig)
+    legend_below(fig, ax, handles + change_handles(scan), ncol=2)
+    return Figure("cp_counts", render(fig),
+                  "Number of critical points of each kind in every frame (a count holds from "
+                  "a frame to the next; lines offset slightly so that equal counts stay "
+                  "visible). Shaded: the bracket of each change; dashed: its estimate.",
                   "CP counts by kind")
 
 
-def bond_tracks(scan: ScanData) -> dict:
-    """Bond CPs grouped by persistent track id.
+def _series(points, key):
+    return np.array([getattr(cp, key) if getattr(cp, key) is not None else np.nan
+                     for _, cp in points], float)
+
+
+def bond_groups(scan: ScanView) -> list:
+    """Bond-CP tracks merged into symmetry-equivalent groups.
 
     Returns
     -------
-    dict
-        ``{track: [(frame, cp), ...]}`` in coordinate order.  Bond CPs
-        without a ``track`` are grouped by their atoms.
+    list of dict
+        ``{"tracks": [...], "points": [(frame, cp), ...] of the first track,
+        "label": "C–H", "members": ["C1–H4", ...], "involved": bool}``;
+        groups of bond paths involved in a change first, then by label.
+        Two tracks are equivalent when they exist in the same frames, link
+        the same pair of elements, and their ρ, ∇²ρ and ε agree within
+        :data:`EQUIVALENCE_RTOL` in every frame.
     """
     tracks = {}
     for f in scan.frames:
-        for cp in f.get("critical_points") or []:
-            if cp.get("kind") != "bond":
-                continue
-            key = cp.get("track")
-            if key is None:
-                key = "atoms " + "-".join(str(a) for a in cp.get("atoms") or [])
-            tracks.setdefault(key, []).append((f, cp))
-    return tracks
+        for cp in f.critical_points:
+            if cp.kind == "bond":
+                key = cp.track if cp.track is not None else f"{f.index}:{cp.id}"
+                tracks.setdefault(key, []).append((f, cp))
+    involved = set()
+    for change in scan.changes:
+        involved |= changed_tracks(change)
+    groups = []
+    for key in sorted(tracks, key=str):
+        points = tracks[key]
+        frames_key = tuple(f.index for f, _ in points)
+        f0, cp0 = points[0]
+        elements = "–".join(sorted(scan.label(a, f0).rstrip("0123456789") for a in cp0.atoms))
+        series = np.concatenate([_series(points, q) for q in ("rho", "laplacian", "ellipticity")])
+        for g in groups:
+            if g["frames"] == frames_key and g["elements"] == elements and \
+                    (key in involved) == g["involved"] and \
+                    np.allclose(series, g["series"], rtol=EQUIVALENCE_RTOL,
+                                atol=_EQUIVALENCE_ATOL, equal_nan=True):
+                g["tracks"].append(key)
+                g["members"].append(_path_label(scan, points))
+                break
+        else:
+            groups.append({"tracks": [key], "points": points, "frames": frames_key,
+                           "elements": elements, "series": series, "involved": key in involved,
+                           "members": [_path_label(scan, points)]})
+    for g in groups:
+        n = len(g["tracks"])
+        g["label"] = g["members"][0] if n == 1 else f"{g['elements']} ×{n}"
+    groups.sort(key=lambda g: (not g["involved"], g["label"]))
+    return groups
 
 
-def _track_label(scan: ScanData, points) -> str:
+def _path_label(scan: ScanView, points) -> str:
     labels = []
     for f, cp in points:
-        lab = scan.labels(cp.get("atoms"), f)
+        lab = scan.labels(cp.atoms, f)
         if not labels or labels[-1] != lab:
             labels.append(lab)
     return " → ".join(labels) if labels else "?"
 
 
-def _select_tracks(scan: ScanData, tracks: dict) -> list:
-    involved = set()
-    for key, points in tracks.items():
-        present = {f.get("index") for f, _ in points}
-        for change in scan.changes:
-            between = change.get("between") or []
-            if len(between) == 2 and (between[0] in present) != (between[1] in present):
-                involved.add(key)
-
-    def spread(key):
-        eps = [cp.get("ellipticity") for _, cp in tracks[key]]
-        eps = [e for e in eps if isinstance(e, (int, float))]
-        return (max(eps) - min(eps)) if eps else 0.0
-
-    order = sorted(tracks, key=lambda k: (k not in involved, -spread(k), str(k)))
-    return order[:MAX_LINES]
-
-
-def bond_cp_plot(scan: ScanData):
-    """ρ, ∇²ρ and ε at each bond CP against the coordinate, one line per bond path.
-
-    Returns None when no frame has bond CPs.
-    """
-    tracks = bond_tracks(scan)
-    if not tracks:
+@styled
+def bond_cp_plot(scan: ScanView):
+    """ρ, ∇²ρ and ε at the bond CPs, the bond paths involved in changes emphasised."""
+    groups = bond_groups(scan)
+    if not groups:
         return None
-    keys = _select_tracks(scan, tracks)
-    fig = new_figure(7.5, 7.2)
+    fig = new_figure(2, 4.6)
     axes = fig.subplots(3, 1, sharex=True)
     quantities = (("rho", "ρ (a.u.)"), ("laplacian", "∇²ρ (a.u.)"), ("ellipticity", "ε"))
     handles = []
-    for j, key in enumerate(keys):
-        points = tracks[key]
-        colour = LINE_COLOURS[j % len(LINE_COLOURS)]
-        style = LINE_STYLES[(j // len(LINE_COLOURS)) % len(LINE_STYLES)]
-        marker, ms = _MARKERS[j % len(_MARKERS)], 6.5 - 1.5 * (j % 3)
-        x = [f["value"] for f, _ in points]
+    colours = iter(LINE_COLOURS)
+    markers = iter(("o", "s", "^", "D", "v", "P", "X"))
+    for g in groups:
+        x = [f.value for f, _ in g["points"]]
+        if g["involved"]:
+            colour, lw, ms, marker, z = next(colours, "black"), 1.6, 3.5, next(markers, "o"), 3
+        else:
+            colour, lw, ms, marker, z = CONTEXT_GREY, 0.8, 0, None, 2
         for ax, (q, _) in zip(axes, quantities):
-            y = [cp.get(q) if isinstance(cp.get(q), (int, float)) else np.nan
-                 for _, cp in points]
-            ax.plot(x, y, color=colour, ls=style, lw=1.3, marker=marker, ms=ms,
-                    markerfacecolor="none" if j % 2 else colour)
-        handles.append(Line2D([], [], color=colour, ls=style, marker=marker, ms=ms,
-                              markerfacecolor="none" if j % 2 else colour,
-                              label=f"{_track_label(scan, points)} [{key}]"))
+            ax.plot(x, _series(g["points"], q), color=colour, lw=lw, marker=marker, ms=ms,
+                    zorder=z)
+        if g["involved"]:
+            handles.append(Line2D([], [], color=colour, lw=lw, marker=marker, ms=ms,
+                                  label=g["label"]))
+    others = [g for g in groups if not g["involved"]]
+    if others:
+        handles.append(Line2D([], [], color=CONTEXT_GREY, lw=0.8,
+                              label="other bond paths (see caption)"))
     for ax, (_, label) in zip(axes, quantities):
-        _mark_changes(ax, scan, numbers=ax is axes[0])
+        mark_changes(ax, scan, numbers=ax is axes[0])
         ax.set_ylabel(label)
-        ax.grid(alpha=0.3, lw=0.5)
-    axes[-1].set_xlabel(_xlabel(scan))
-    _orient(axes[0], scan)
-    handles.append(Line2D([], [], color="none", label="markers: sampled frames"))
-    axes[0].legend(handles=handles + _change_handles(scan), loc="upper left",
-                   bbox_to_anchor=(1.01, 1.0), fontsize=7.5, frameon=False,
-                   title="bond path [track]", title_fontsize=8)
-    more = len(tracks) - len(keys)
-    extra = (f" The {len(keys)} bond paths shown are those involved in changes and those "
-             f"whose ellipticity varies most; {more} more are in critical_points.csv."
-             if more > 0 else "")
-    return Figure("bond_cp_properties", to_png(fig),
-                  "Density ρ, its Laplacian ∇²ρ and the ellipticity ε at each bond CP, one "
-                  "line per bond path, labelled by its atoms and persistent track id (a label "
-                  "with an arrow means the path changed ends). Lines of symmetry-equivalent "
-                  "bond paths coincide; their markers differ." + extra,
-                  "bond CP properties")
-
-
-def energy_plot(scan: ScanData):
-    """Energy (relative, kcal/mol) against the coordinate, or None without energies."""
-    pts = [(f["value"], frame_energy(f)) for f in scan.frames if frame_energy(f) is not None]
-    if not pts:
-        return None
-    x = np.array([p[0] for p in pts])
-    e = np.array([p[1] for p in pts])
-    e_min = float(e.min())
-    fig = new_figure(7.5, 3.4)
-    ax = fig.add_subplot()
-    ax.plot(x, (e - e_min) * HARTREE_IN_KCAL_PER_MOL, color=LINE_COLOURS[0], marker="o",
-            ms=4, lw=1.4)
-    _mark_changes(ax, scan)
-    ax.set_xlabel(_xlabel(scan))
-    ax.set_ylabel("E − E_min (kcal/mol)")
-    _orient(ax, scan)
-    ax.grid(alpha=0.3, lw=0.5)
-    handles = [Line2D([], [], color=LINE_COLOURS[0], marker="o", ms=4, label="frame energy")]
-    ax.legend(handles=handles + _change_handles(scan), loc="center left",
-              bbox_to_anchor=(1.01, 0.5), fontsize=8, frameon=False)
-    return Figure("energy", to_png(fig),
-                  f"Energy of each frame relative to the lowest (E_min = {e_min:.10g} hartree; "
-                  f"1 hartree = {HARTREE_IN_KCAL_PER_MOL} kcal/mol).", "energy")
-
-
-def fold_series(scan: ScanData, change):
-    """Distance between the two coalescing CPs of a fold along the scan.
-
-    Returns
-    -------
-    tuple or None
-        ``(label, x, d)``: a description of the pair, coordinate values and
-        distances (Å) in every frame where both tracks exist; None when the
-        change has no coalescing pair.
-    """
-    pair = coalescing_pair(scan, change)
-    if pair is None:
-        return None
-    a, b, _side = pair
-    ta, tb = a.get("track", a.get("id")), b.get("track", b.get("id"))
-    xs, ds = [], []
-    for f in scan.frames:
-        found = {}
-        for cp in f.get("critical_points") or []:
-            key = cp.get("track", cp.get("id"))
-            if key in (ta, tb) and cp.get("position_bohr") is not None:
-                found[key] = np.asarray(cp["position_bohr"], float)
-        if ta in found and tb in found:
-            xs.append(f["value"])
-            ds.append(float(np.linalg.norm(found[ta] - found[tb])) * BOHR_IN_ANGSTROM)
-    who = {}
-    for cp in (a, b):
-        text = f"{cp.get('kind')} CP"
-        if cp.get("kind") == "bond" and cp.get("atoms"):
-            text += " " + scan.labels(cp["atoms"])
-        who[cp.get("kind")] = text
-    label = " · ".join(who[k] for k in ("bond", "ring", "cage") if k in who)
-    return label, np.array(xs), np.array(ds)
-
-
-def fold_distance_plot(scan: ScanData):
-    """Distance (and its square) between coalescing CPs near each fold, or None."""
-    series = []
-    for k, change in enumerate(scan.changes, 1):
-        if change.get("mechanism") not in ("fold", "mixed") and \
-                change.get("mechanism_candidate") not in ("fold", "mixed"):
-            continue
-        s = fold_series(scan, change)
-        if s is not None and len(s[1]):
-            series.append((k, *s))
-    if not series:
-        return None
-    fig = new_figure(7.5, 5.0)
-    ax_d, ax_d2 = fig.subplots(2, 1, sharex=True)
-    handles = []
-    for j, (k, label, x, d) in enumerate(series):
-        colour = LINE_COLOURS[j % len(LINE_COLOURS)]
-        ax_d.plot(x, d, color=colour, marker="o", ms=4, lw=1.3)
-        ax_d2.plot(x, d ** 2, color=colour, marker="o", ms=4, lw=1.3)
-        handles.append(Line2D([], [], color=colour, marker="o", ms=4,
-                              label=f"change {k}: {label}"))
-    for ax in (ax_d, ax_d2):
-        _mark_changes(ax, scan, numbers=ax is ax_d)
-        ax.grid(alpha=0.3, lw=0.5)
-        ax.set_ylim(bottom=0)
-    ax_d.set_ylabel("d (Å)")
-    ax_d2.set_ylabel("d² (Å²)")
-    ax_d2.set_xlabel(_xlabel(scan))
-    _orient(ax_d, scan)
-    ax_d.legend(handles=handles + _change_handles(scan), loc="upper left",
-                bbox_to_anchor=(1.01, 1.0), fontsize=8, frameon=False)
-    return Figure("fold_distance", to_png(fig),
-                  "Distance d between the two critical points that coalesce at each fold, in "
-                  "the frames where both exist. Near a fold d² falls linearly with the "
-                  "coordinate (fold normal form), so the lower panel should end in a straight "
-                  "line pointing at the estimate.", "fold CP distance")
-
-
-#: Frames nearest the fold shown in the zoomed fold plot.
-ZOOM_FRAMES = 5
-
-
-def fold_zoom_plot(scan: ScanData, change, number: int):
-    """d and d² of a fold's coalescing pair in the frames nearest the fold, or None.
-
-    Made only when those frames span less than half the scan (else the plot
-    along the scan shows the same).
-    """
-    s = fold_series(scan, change)
-    bracket = change.get("bracket")
-    if s is None or len(s[1]) < 2 or not bracket:
-        return None
-    label, x, d = s
-    near = np.argsort(np.abs(x - float(np.mean(bracket))))[:ZOOM_FRAMES]
-    near = np.sort(near)
-    x, d = x[near], d[near]
-    values = [f["value"] for f in scan.frames]
-    lo, hi = min(x.min(), min(bracket)), max(x.max(), max(bracket))
-    if (hi - lo) >= 0.5 * (max(values) - min(values)):
-        return None
-    fig = new_figure(7.5, 4.6)
-    ax_d, ax_d2 = fig.subplots(2, 1, sharex=True)
-    colour = LINE_COLOURS[0]
-    ax_d.plot(x, d, color=colour, marker="o", ms=5, lw=1.3)
-    ax_d2.plot(x, d ** 2, color=colour, marker="o", ms=5, lw=1.3)
-    pad = 0.05 * (hi - lo)
-    for ax in (ax_d, ax_d2):
-        _mark_changes(ax, scan, numbers=ax is ax_d)
-        ax.set_xlim(lo - pad, hi + pad)
-        ax.grid(alpha=0.3, lw=0.5)
-        ax.set_ylim(bottom=0)
-    ax_d.set_ylabel("d (Å)")
-    ax_d2.set_ylabel("d² (Å²)")
-    ax_d2.set_xlabel(_xlabel(scan))
-    _orient(ax_d, scan)
-    handles = [Line2D([], [], color=colour, marker="o", ms=5, label=label)]
-    ax_d.legend(handles=handles + _change_handles(scan), loc="upper left",
-                bbox_to_anchor=(1.01, 1.0), fontsize=8, frameon=False)
-    return Figure(f"fold_zoom_change{number}", to_png(fig),
-                  f"Change {number}: distance d between the coalescing CPs in the "
-                  f"{len(x)} frames nearest the fold, and d², which the fold normal form makes "
-                  "linear in the coordinate.", f"fold CP distance near change {number}")
+        ax.grid(alpha=0.3, lw=0.4)
+    orient(axes[0], scan)
+    fig.subplots_adjust(hspace=0.12)
+    set_xlabel(axes[-1], scan, fig)
+    legend_below(fig, list(axes), handles + change_handles(scan), ncol=3)
+    named = "; ".join(f"{g['label']} ({', '.join(g['members'])})" if len(g["members"]) > 1
+                      else g["label"] for g in others)
+    merged = any(len(g["members"]) > 1 for g in others)
+    involved = [g["label"] for g in groups if g["involved"]]
+    text = ("Density ρ, its Laplacian ∇²ρ and the ellipticity ε at the bond CPs along the "
+            "scan. ")
+    if involved:
+        text += (f"In colour, the bond paths involved in a change ({', '.join(involved)}; an "
+                 "arrow means the path changed ends); ")
+    if others:
+        text += f"in grey, the other bond paths: {named}."
+        if merged:
+            text += (f" Symmetry-equivalent bond paths (same elements, the same ρ, ∇²ρ and ε "
+                     f"within {EQUIVALENCE_RTOL:.1%} in every frame) are drawn as one line, "
+                     "labelled ×n.")
+    return Figure("bond_cp_properties", render(fig), text.strip(), "bond CP properties")

@@ -1,4 +1,4 @@
-"""Write the report folder: report.html, report.md with PNGs, changes.csv, critical_points.csv."""
+"""Write the report folder: report.html, report.md, figures (PNG, SVG, PDF), CSV and XYZ files."""
 
 from __future__ import annotations
 
@@ -13,9 +13,10 @@ from trackscan.io.atomic import write_bytes_atomic, write_text_atomic
 from trackscan.report import tables
 from trackscan.progress import report
 from trackscan.report.assemble import TASK, build_document, report_steps
+from trackscan.report.estimate_geometry import xyz_name
 from trackscan.report.html import render_html
 from trackscan.report.markdown import image_name, render_markdown
-from trackscan.report.scan_data import load_scan
+from trackscan.report.scan_view import load_scan
 
 __all__ = ["write_report", "ReportFiles"]
 
@@ -35,6 +36,8 @@ class ReportFiles:
     changes_csv: Path
     critical_points_csv: Path
     images: tuple
+    vector_images: tuple = ()
+    geometries: tuple = ()
 
 
 def write_report(scan, out_dir, *, source_dir=None, date="today", progress=None) -> ReportFiles:
@@ -67,6 +70,12 @@ def write_report(scan, out_dir, *, source_dir=None, date="today", progress=None)
     ------
     trackscan.errors.InputError
         `scan` is not a readable scan result, or `out_dir` cannot be made.
+
+    Notes
+    -----
+    Every figure is written as ``NAME.png`` (300 dpi), ``NAME.svg`` and
+    ``NAME.pdf``; the geometry at each change's estimate as
+    ``geometry_changeK.xyz`` (Å).
     """
     data = load_scan(scan, source_dir=source_dir)
     out = Path(out_dir)
@@ -80,24 +89,36 @@ def write_report(scan, out_dir, *, source_dir=None, date="today", progress=None)
     if date == "today":
         date = datetime.datetime.now(datetime.timezone.utc).date().isoformat()
     logger.info("report of scan %r into %s", data.name, out)
-    doc = build_document(data, date=date, progress=progress)
+    geometries = {}
+    doc = build_document(data, date=date, progress=progress, geometries=geometries)
     footer = (f"Made by trackscan {__version__} from scan.json"
               + (f" on {date}" if date else "") + ".")
     steps = report_steps(data)
     report(progress, TASK, steps - 1, steps, "writing files")
     changes_csv = out / "changes.csv"
     cps_csv = out / "critical_points.csv"
-    tables.write_csv(changes_csv, tables.CHANGES_CSV_HEADER, tables.change_csv_rows(data))
-    tables.write_csv(cps_csv, tables.CRITICAL_POINTS_CSV_HEADER,
-                     tables.critical_point_csv_rows(data))
-    images = []
+    tables.write_csv(changes_csv, *tables.change_csv(data))
+    tables.write_csv(cps_csv, *tables.critical_point_csv(data))
+    images, vectors = [], []
     for fig in doc.figures():
         path = out / image_name(fig)
         write_bytes_atomic(path, fig.png)
         images.append(path)
+        for ext, content in (("svg", fig.svg), ("pdf", fig.pdf)):
+            vector = path.with_suffix(f".{ext}")
+            write_bytes_atomic(vector, content)
+            vectors.append(vector)
+    xyz = []
+    for k, geometry in sorted(geometries.items()):
+        path = out / xyz_name(k)
+        write_text_atomic(path, geometry.xyz_text(
+            f"{data.name}: change {k}, {data.coordinate_label} = {geometry.value!r} "
+            f"({geometry.origin})".replace("\n", " ")))
+        xyz.append(path)
     md = out / "report.md"
     write_text_atomic(md, render_markdown(doc, footer=footer))
     html = out / "report.html"
     write_text_atomic(html, render_html(doc, footer=footer))
     report(progress, TASK, steps, steps, str(html))
-    return ReportFiles(html, md, changes_csv, cps_csv, tuple(images))
+    return ReportFiles(html, md, changes_csv, cps_csv, tuple(images), tuple(vectors),
+                       tuple(xyz))

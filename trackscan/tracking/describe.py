@@ -1,6 +1,11 @@
-"""Changes in words, for tables and reports: "bond path C1–C2 broken; ring CP lost"."""
+"""Changes in words, for tables and reports: "bond path C1–C2 broken; ring CP lost".
+
+The words are those of :mod:`trackscan.vocabulary`, which the report uses too.
+"""
 
 from __future__ import annotations
+
+from trackscan.vocabulary import event_phrase, events_phrase
 
 __all__ = ["atom_label", "describe_event", "describe_change"]
 
@@ -40,19 +45,14 @@ def describe_event(event, elements) -> str:
     """
     kind = event.kind
     atoms = event.atoms or ()
-    if kind in ("bond_broken", "bond_formed"):
-        return f"bond path {_path(atoms, elements)} {kind.split('_')[1]}"
     if kind == "bond_switched":
-        return (f"bond path {_path(event.atoms_before or (), elements)} switched to "
-                f"{_path(event.atoms_after or (), elements)}")
-    what, _, how = kind.partition("_")
-    if what in ("ring", "cage"):
-        return f"{what} CP {how}"
-    if what == "attractor":
-        return f"non-nuclear attractor {how}"
-    return kind.replace("_", " ")
+        return event_phrase(kind, atoms=_path(event.atoms_before or (), elements),
+                            atoms_after=_path(event.atoms_after or (), elements))
+    if kind.partition("_")[0] == "bond":
+        return event_phrase(kind, atoms=_path(atoms, elements))
+    return event_phrase(kind)
 
 
 def describe_change(change, elements) -> str:
     """All events of a change (a trackscan.model.Change) in words, joined by "; "."""
-    return "; ".join(describe_event(e, elements) for e in change.events) or "(no events)"
+    return events_phrase(describe_event(e, elements) for e in change.events)
