@@ -22,7 +22,8 @@ from pathlib import Path
 from trackscan.errors import GeneratorError
 from trackscan.io.xyz import XYZFrame, write_xyz
 
-__all__ = ["Generator", "GeneratedFrame", "GeometryOnly", "sibling"]
+__all__ = ["Generator", "GeneratedFrame", "GeometryOnly", "sibling", "coordinate_value",
+           "format_value"]
 
 _CUBE_SUFFIXES = (".cube.gz", ".cube.bz2", ".cube.xz", ".cube", ".cub")
 
@@ -39,6 +40,20 @@ def sibling(cube_path, suffix: str) -> Path:
             name = name[: -len(s)]
             break
     return p.with_name(name + suffix)
+
+
+def coordinate_value(value):
+    """A coordinate value as stored: a float, or a tuple of two for a plane scan."""
+    if isinstance(value, (tuple, list)):
+        return tuple(float(v) for v in value)
+    return float(value)
+
+
+def format_value(value) -> str:
+    """A coordinate value (or a plane scan's pair) for messages: ``1.5`` or ``(1.5, 60)``."""
+    if isinstance(value, (tuple, list)):
+        return "(" + ", ".join(f"{float(v):g}" for v in value) + ")"
+    return f"{float(value):g}"
 
 
 @dataclass(frozen=True)
