@@ -79,6 +79,10 @@ def run(args) -> int:
     from trackscan.report import write_report
 
     manifest = load_manifest(args.manifest)
+    if getattr(manifest, "dimensions", 1) == 2:
+        from trackscan.cli.plane_scans import analyze_plane_command
+
+        return analyze_plane_command(args, manifest)
     out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
     progress = TextProgress()
     scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress,

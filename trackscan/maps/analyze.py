@@ -254,14 +254,16 @@ def plane_boundaries(frames, values, numbers, *, units, tracking=None, tolerance
                      gtol=None) -> list:
     """Every boundary of the plane: the changes along each boundary edge.
 
+    `tolerance`: None, or the refine tolerances along the two coordinates.
     An edge whose ends differ in structure while tracking along it finds no
     change (the structure keys differ only in labels tracking matches up) gets
     a boundary with mechanism ``unresolved`` and a note.
     """
     out = []
     for edge in boundary_edges(frames, values, numbers):
+        tol = None if tolerance is None else tolerance[edge.axis]
         on, tracked, changes = track_edge(frames, edge, values, tracking=tracking,
-                                          unit=units[edge.axis], tolerance=tolerance, gtol=gtol)
+                                          unit=units[edge.axis], tolerance=tol, gtol=gtol)
         if not changes:
             half = 0.5 * abs(values[edge.b][edge.axis] - values[edge.a][edge.axis])
             mid = 0.5 * (values[edge.a][edge.axis] + values[edge.b][edge.axis])
@@ -289,8 +291,8 @@ def plane_scan_dict(manifest, frames, *, source: str, tracking=None, out_dir=Non
     tracking : TrackingSettings, optional
     out_dir : path-like, optional
         Output folder (the manifest's path is stored relative to it).
-    tolerance : float, optional
-        Refine tolerance, when refined.
+    tolerance : (float, float), optional
+        Refine tolerances along the first and the second coordinate.
     """
     tracking = tracking or TrackingSettings()
     order = sorted(range(len(frames)), key=lambda k: tuple(frames[k]["values"]))

@@ -68,6 +68,11 @@ def write_report(scan, out_dir, *, source_dir=None, date="today", progress=None)
     trackscan.errors.InputError
         `scan` is not a readable scan result, or `out_dir` cannot be made.
     """
+    from trackscan.report.structure_map import plane_scan, write_plane_report
+
+    plane = plane_scan(scan)
+    if plane is not None:
+        return write_plane_report(plane, out_dir, date=date, progress=progress)
     data = load_scan(scan, source_dir=source_dir)
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
