@@ -95,12 +95,27 @@ def _climb(start, nuclei):
     return int(np.argmin(np.linalg.norm(nuclei - end, axis=1))) + 1
 
 
-def structure(nuclei):
-    """Bonded pairs (1-based, sorted) and the number of ring CPs of the planar H_n sum."""
+def structure(nuclei, *, step=0.05):
+    """Bonded pairs (1-based, sorted) and the number of ring CPs of the planar H_n sum.
+
+    The search is repeated on finer seed grids until the critical points
+    satisfy the Poincare-Hopf relation n - b + r = 1 of the plane (an
+    isolated molecule; all CPs lie in the plane here), which a coalescing
+    pair near a fold can otherwise hide.
+    """
     nuclei = np.asarray(nuclei, dtype=float)
+    for _ in range(4):
+        cps = critical_points(nuclei, step=step)
+        kinds = [k for _, k in cps]
+        n = len(nuclei) + kinds.count("nna")
+        if n - kinds.count("bond") + kinds.count("ring") == 1:
+            break
+        step /= 2.5
+    else:
+        raise AssertionError(f"no Poincare-Hopf-consistent CP set for nuclei {nuclei.tolist()}")
     bonds = []
     rings = 0
-    for x, kind in critical_points(nuclei):
+    for x, kind in cps:
         if kind == "ring":
             rings += 1
         elif kind == "bond":
