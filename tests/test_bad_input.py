@@ -43,6 +43,11 @@ MANIFESTS = {
     "frame_with_nan.yaml": ("nan_value.cube:11: non-finite", None),
     "bad_setting.yaml": ("did you mean 'density_floor'", 3),
     "no_such_manifest.yaml": ("no such manifest file", None),
+    "plane_coordinates_one.yaml": ("coordinates: expected a list of two coordinates", 3),
+    "plane_value_not_pair.yaml": ("frames[0].value: expected two numbers [value1, value2]", 6),
+    "plane_grid_bad_value.yaml": ("frames.grid[1][1]: expected a finite number", 8),
+    "plane_one_drive.yaml": ("generator.geometry.drive: a plane scan drives two coordinates", 10),
+    "plane_coordinate_unit.yaml": ("coordinates[1].unit: required", 4),
 }
 
 

@@ -41,7 +41,7 @@ __all__ = ["CommandGenerator"]
 
 logger = logging.getLogger(__name__)
 
-_PLACEHOLDER_RE = re.compile(r"\{(value|xyz|cube|workdir)\}")
+_PLACEHOLDER_RE = re.compile(r"\{(value1|value2|value|xyz|cube|workdir)\}")
 _TAIL = 400
 
 
