@@ -14,7 +14,14 @@ import numpy as np
 import pytest
 
 from trackscan.errors import ConsistencyError, InputError
-from trackscan.tracking import TrackingSettings, describe_change, track_scan
+from trackscan.model import Change
+from trackscan.tracking import TrackingSettings, describe_change
+from trackscan.tracking import track_scan as _track_scan
+
+
+def track_scan(frames, **kw):
+    """The tracking result in its contract form (what scan.json carries)."""
+    return _track_scan(frames, **kw).to_dict()
 from trackscan.tracking.align import kabsch
 
 _spec = importlib.util.spec_from_file_location("tracking_synthetic",
@@ -38,7 +45,7 @@ def test_fold_ring_opening():
     assert kinds == [("bond_broken", (1, 3)), ("ring_lost", (1, 2, 3))]
     assert ch["structure_type_changed"] is True
     assert ch["resolution"]["resolved"] and ch["resolution"]["margin"] > 1
-    assert describe_change(ch, ["C", "C", "C"]) == "bond path C1–C3 broken; ring CP lost"
+    assert describe_change(Change.from_dict(ch), ["C", "C", "C"]) == "bond path C1–C3 broken; ring CP lost"
     # the bond CP keeps one track while it exists
     tracks = [{cp["id"]: cp["track"] for cp in f["critical_points"]} for f in r["frames"]]
     assert len({t["b3"] for t in tracks[:3]}) == 1
@@ -54,7 +61,7 @@ def test_conflict_switch():
     assert ev["atoms_before"] == [1, 3] and ev["atoms_after"] == [2, 3]
     # C1-H3 and C2-H3 with C1-C2: the same graph up to relabelling
     assert ch["structure_type_changed"] is False
-    assert describe_change(ch, ["C", "C", "H"]) == "bond path C1–H3 switched to C2–H3"
+    assert describe_change(Change.from_dict(ch), ["C", "C", "H"]) == "bond path C1–H3 switched to C2–H3"
 
 
 def test_out_of_order_listing_gives_same_changes():
@@ -361,7 +368,7 @@ def test_attractor_fold_with_its_path_rerouted_is_a_fold():
     assert kinds == ["attractor_lost", "bond_broken", "bond_switched"]
     (sw,) = [e for e in ch["events"] if e["kind"] == "bond_switched"]
     assert sw["atoms_before"] == [1, "A1"] and sw["atoms_after"] == [1, 2] and sw["by_fold"]
-    assert describe_change(ch, ["Li", "Li"]) == (
+    assert describe_change(Change.from_dict(ch), ["Li", "Li"]) == (
         "bond path Li2–NNA A1 broken; bond path Li1–NNA A1 switched to Li1–Li2; "
         "non-nuclear attractor lost")
 

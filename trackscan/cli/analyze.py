@@ -36,46 +36,46 @@ def add_arguments(parser) -> None:
 
 
 def _bracket(ch, unit) -> str:
-    a, b = ch["bracket"]
+    a, b = ch.bracket
     return f"{a:.6g} → {b:.6g} {unit}".strip()
 
 
-def summary_lines(scan: dict) -> list:
-    """The printed summary of a scan.json dict, as lines."""
-    frames = scan["frames"]
-    elements = [a["element"] for a in frames[0]["atoms"]] if frames else []
-    coord = scan["scan"]["coordinate"]
-    unit = coord.get("unit", "")
-    lines = [f"scan {scan['scan']['name']}: {len(frames)} frames along {coord.get('label', '')}, "
-             f"{len(scan['structures'])} structure(s), {len(scan['changes'])} change(s)"]
-    if not scan["changes"]:
+def summary_lines(scan) -> list:
+    """The printed summary of a :class:`trackscan.model.ScanResult`, as lines."""
+    frames = scan.frames
+    elements = list(frames[0].elements) if frames else []
+    coord = scan.scan.coordinate
+    unit = coord.unit if coord is not None else ""
+    label = coord.label if coord is not None else ""
+    lines = [f"scan {scan.scan.name}: {len(frames)} frames along {label}, "
+             f"{len(scan.structures)} structure(s), {len(scan.changes)} change(s)"]
+    if not scan.changes:
         lines.append("no structural change inside the scan")
     else:
         rows = [("#", "frames", "bracket", "mechanism", "events")]
-        for n, ch in enumerate(scan["changes"], start=1):
-            rows.append((str(n), f"{ch['between'][0]}–{ch['between'][1]}", _bracket(ch, unit),
-                         ch["mechanism"], describe_change(ch, elements)))
+        for n, ch in enumerate(scan.changes, start=1):
+            rows.append((str(n), f"{ch.between[0]}–{ch.between[1]}", _bracket(ch, unit),
+                         ch.mechanism, describe_change(ch, elements)))
         widths = [max(len(r[i]) for r in rows) for i in range(4)]
         for r in rows:
             lines.append("  ".join(c.ljust(w) for c, w in zip(r[:4], widths)) + "  " + r[4])
-        for n, ch in enumerate(scan["changes"], start=1):
-            if ch.get("note"):
-                lines.append(f"note {n}: {ch['note']}")
-            if ch.get("structure_type_changed") is False:
+        for n, ch in enumerate(scan.changes, start=1):
+            if ch.note:
+                lines.append(f"note {n}: {ch.note}")
+            if ch.structure_type_changed is False:
                 lines.append(f"note {n}: the structure type is unchanged; only which atoms "
                              "are linked differs")
-    bad = scan.get("incomplete_frames") or []
+    bad = scan.incomplete_frames
     if bad:
         lines.append("warning: frame(s) " + ", ".join(str(k) for k in bad) +
                      " fail Poincaré–Hopf (critical points may be missing); changes next to "
                      "them are unresolved")
-    for w in scan.get("early_warnings", []):
-        lines.append(f"early warning: {w['message']}")
+    for w in scan.early_warnings:
+        lines.append(f"early warning: {w.message}")
     return lines
 
 
 def run(args) -> int:
-    from trackscan.refine.scan import annotate_scan
     from trackscan.report import write_report
 
     manifest = load_manifest(args.manifest)
@@ -87,8 +87,6 @@ def run(args) -> int:
     progress = TextProgress()
     scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress,
                         dask=args.dask)
-    # frames made by an earlier refine keep their estimates and evaluation counts
-    scan = annotate_scan(manifest, scan)
     path = out / "scan.json"
     write_scan(path, scan)
     files = write_report(path, out, source_dir=manifest.base_dir, progress=progress)

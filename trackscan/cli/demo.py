@@ -111,14 +111,14 @@ def run(args) -> int:
         scan, result = refine_manifest(manifest, tolerance=tolerance, jobs=args.jobs,
                                        out_dir=out, progress=progress)
         refine_lines = [f"refine: {result.message}; {result.total_evaluations} new frame(s)"]
-        if scan["changes"]:
+        if scan.changes:
             refine_lines += change_lines(scan)
     path = out / "scan.json"
     write_scan(path, scan)
     files = write_report(path, out, source_dir=inputs)
     progress.close()
     elapsed = time.perf_counter() - t0
-    print(f"density source: {scan['scan']['density_source']}")
+    print(f"density source: {scan.scan.density_source}")
     for line in summary_lines(scan) + refine_lines:
         print(line)
     print(f"results in {os.fspath(out)}/ ({elapsed:.0f} s):")

@@ -57,20 +57,19 @@ def _fmt(x) -> str:
     return f"{x:.6g}"
 
 
-def change_lines(scan: dict) -> list:
-    """Printed table of the refined changes."""
-    unit = scan["scan"]["coordinate"].get("unit", "")
-    if not scan["changes"]:
+def change_lines(scan) -> list:
+    """Printed table of the refined changes of a :class:`trackscan.model.ScanResult`."""
+    unit = scan.scan.coordinate.unit if scan.scan.coordinate is not None else ""
+    if not scan.changes:
         return ["no structural change inside the scan"]
     rows = [("#", "bracket", "estimate", "method", "new frames", "bisection")]
-    for n, ch in enumerate(scan["changes"], start=1):
-        a, b = ch["bracket"]
-        unc = ch.get("uncertainty") or {}
-        err = unc.get("model_error")
-        est = _fmt(ch["estimate"]) + (f" ± {err:.2g}" if err is not None else "")
-        rows.append((str(n), f"{_fmt(a)} → {_fmt(b)} {unit}".strip(), est, ch["estimate_method"],
-                     str(ch.get("evaluations", 0)),
-                     str((ch.get("refine") or {}).get("bisection_evaluations", ""))))
+    for n, ch in enumerate(scan.changes, start=1):
+        a, b = ch.bracket
+        err = ch.uncertainty.model_error if ch.uncertainty is not None else None
+        est = _fmt(ch.estimate) + (f" ± {err:.2g}" if err is not None else "")
+        rows.append((str(n), f"{_fmt(a)} → {_fmt(b)} {unit}".strip(), est, ch.estimate_method,
+                     str(ch.evaluations or 0),
+                     str((ch.refine or {}).get("bisection_evaluations", ""))))
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
     return ["  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip() for r in rows]
 

@@ -381,7 +381,9 @@ def record_generated_frame(manifest, entry: dict) -> Path:
 
 def generated_frame_name(value: float) -> str:
     """File name of a generated frame at coordinate `value` (stable, sortable)."""
-    return f"frame_{value:+.6f}.cube".replace("+", "p").replace("-", "m")
+    from trackscan.model import VALUE_DECIMALS
+
+    return f"frame_{value:+.{VALUE_DECIMALS}f}.cube".replace("+", "p").replace("-", "m")
 
 
 def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:

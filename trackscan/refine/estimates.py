@@ -20,8 +20,9 @@ Per change (scan.json contract, DESIGN.md section 3, plus extensions):
 
 from __future__ import annotations
 
-import copy
+import dataclasses
 
+from trackscan.model import Uncertainty
 from trackscan.refine.crossing import CROSSING, fit_crossing
 from trackscan.refine.indicators import (
     DEFAULT_GTOL, conflict_samples, conflict_spec, fold_samples, fold_side,
@@ -33,15 +34,15 @@ __all__ = ["annotate_changes"]
 
 
 def annotate_changes(frames, changes, *, tolerance: float | None = None,
-                     gtol: float = DEFAULT_GTOL) -> list:
+                     gtol: float = DEFAULT_GTOL) -> tuple:
     """Changes with estimate, method, evaluations and uncertainty filled in.
 
     Parameters
     ----------
-    frames : sequence of dict
+    frames : sequence of trackscan.model.Frame
         Tracked frames in scan order (frames added by refinement carry
         ``refine``).
-    changes : sequence of dict
+    changes : sequence of trackscan.model.Change
         The tracking result's changes.
     tolerance : float, optional
         The refine tolerance, recorded with each change.
@@ -50,20 +51,18 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None,
 
     Returns
     -------
-    list of dict
-        Copies of `changes`.
+    tuple of trackscan.model.Change
+        New objects (``dataclasses.replace``); `changes` are not modified.
     """
     out = []
     for ch in changes:
-        ch = copy.deepcopy(ch)
         ctx = change_context(frames, ch)
-        v0, v1 = (float(x) for x in ch["bracket"])
+        v0, v1 = (float(x) for x in ch.bracket)
         lo, hi = min(v0, v1), max(v0, v1)
         width = hi - lo
         mid = 0.5 * (v0 + v1)
-        ch["evaluations"] = ctx.evaluations
         method = ("bisection-midpoint" if ctx.evaluations
-                  else ch.get("estimate_method", "bracket-midpoint"))
+                  else ch.estimate_method or "bracket-midpoint")
         estimate, model_error = mid, None
         info = {"initial_bracket": [float(x) for x in ctx.base]}
         spec = conflict_spec(ch)
@@ -82,14 +81,13 @@ def annotate_changes(frames, changes, *, tolerance: float | None = None,
                     estimate, method, model_error = fit.estimate, "fold-extrapolation", fit.error
                 else:
                     info["fold_fit"]["outside_bracket"] = True
-        ch["estimate"] = float(estimate)
-        ch["estimate_method"] = method
-        ch["uncertainty"] = {"half_width": 0.5 * width, "model_error": model_error}
         if tolerance is not None:
             w0 = abs(ctx.base[1] - ctx.base[0])
             info["tolerance"] = float(tolerance)
             info["converged"] = bool(width <= tolerance)
             info["bisection_evaluations"] = bisection_count(w0, tolerance)
-        ch["refine"] = info
-        out.append(ch)
-    return out
+        out.append(dataclasses.replace(
+            ch, evaluations=ctx.evaluations, estimate=float(estimate), estimate_method=method,
+            uncertainty=Uncertainty(half_width=0.5 * width, model_error=model_error),
+            refine=info))
+    return tuple(out)

@@ -25,12 +25,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from trackscan.model import significant as sig
 from trackscan.tracking.frames import displacement
 from trackscan.tracking.matching import pair_folds
 from trackscan.tracking.resolution import interpolation_floor, rho_floor, separation_floor
 from trackscan.tracking.structures import end_label, same_structure_type, sort_ends
 
-__all__ = ["StepEvents", "analyse_step", "find_changes", "sig"]
+__all__ = ["StepEvents", "analyse_step", "find_changes"]
 
 _LOST = {"bond": "bond_broken", "ring": "ring_lost", "cage": "cage_lost",
          "non_nuclear": "attractor_lost", "nuclear": "attractor_lost"}
@@ -199,18 +200,6 @@ def _step_event_list(st, a, b, ta, tb):
 
 def _digits(view, settings):
     return view.significant_digits or settings.printed_digits
-
-
-def sig(x, digits: int = 10):
-    """`x` rounded to `digits` significant digits, so that noise far below any
-    meaningful digit (e.g. from a rigid rotation) cannot change the output;
-    None stays None, non-finite values become None."""
-    if x is None:
-        return None
-    x = float(x)
-    if not math.isfinite(x):
-        return None
-    return float(f"{x:.{digits}g}") + 0.0
 
 
 def _pair_record(lo, hi, d, frame, view, tracks, settings):
