@@ -160,3 +160,14 @@ def test_new_frames_against_a_uniform_grid(refined, capsys):
     with capsys.disabled():
         print(f"\nplane refine: {new} new frames vs {uniform} for a uniform grid at "
               f"({T_DISTANCE} A, {T_ANGLE} deg): ratio {new / uniform:.3f}")
+
+
+@pytest.mark.slow
+def test_plane_scan_json_round_trips_through_the_model(refined):
+    from trackscan.analysis.scanjson import dumps_scan
+    from trackscan.maps.model import PlaneScanResult
+
+    scan, out = refined
+    model = PlaneScanResult.from_dict(scan)
+    assert len(model.boundaries) == len(scan["boundaries"]) > 0
+    assert dumps_scan(model) == (out / "scan.json").read_text()

@@ -23,29 +23,28 @@ def _point(values) -> str:
 
 
 def plane_summary_lines(scan: dict) -> list:
-    """The printed summary of a plane scan.json dict, as lines."""
-    frames = scan["frames"]
-    elements = [a["element"] for a in frames[0]["atoms"]] if frames else []
-    c1, c2 = scan["scan"]["coordinates"]
-    lines = [f"plane scan {scan['scan']['name']}: {len(frames)} frames over "
-             f"{c1.get('label', '')} ({c1.get('unit', '')}) and {c2.get('label', '')} "
-             f"({c2.get('unit', '')}), {len(scan['structures'])} structure(s), "
-             f"{len(scan['boundaries'])} boundary point(s)"]
-    for s in scan["structures"]:
-        bonds = ", ".join("–".join(f"{elements[a - 1]}{a}" if isinstance(a, int) else str(a)
-                                   for a in bp) for bp in s["bond_paths"]) or "no bond path"
-        lines.append(f"  structure {s['number']}: {bonds}; {s['rings']} ring CP(s), "
-                     f"{s['cages']} cage CP(s); {len(s['frames'])} frame(s)")
+    """The printed summary of a plane scan (PlaneScanResult), as lines."""
+    from trackscan.report.structure_map import structure_words
+
+    frames = scan.frames
+    elements = list(frames[0].elements) if frames else []
+    c1, c2 = scan.scan.coordinates
+    lines = [f"plane scan {scan.scan.name}: {len(frames)} frames over "
+             f"{c1.label} ({c1.unit}) and {c2.label} ({c2.unit}), "
+             f"{len(scan.structures)} structure(s), {len(scan.boundaries)} boundary point(s)"]
+    for s in scan.structures:
+        lines.append(f"  structure {s.number}: {structure_words(s, elements)}; "
+                     f"{len(s.frames)} frame(s)")
     rows = [("#", "structures", "bracket", "mechanism", "events")]
-    for n, b in enumerate(scan["boundaries"], start=1):
-        a, z = b["bracket"]
-        rows.append((str(n), f"{b['structures'][0]}→{b['structures'][1]}",
-                     f"{_point(a)} → {_point(z)}", b["mechanism"], describe_change(b, elements)))
+    for n, b in enumerate(scan.boundaries, start=1):
+        a, z = b.bracket
+        rows.append((str(n), f"{b.structures[0]}→{b.structures[1]}",
+                     f"{_point(a)} → {_point(z)}", b.mechanism, describe_change(b, elements)))
     if len(rows) > 1:
         widths = [max(len(r[i]) for r in rows) for i in range(4)]
         for r in rows:
             lines.append("  ".join(c.ljust(w) for c, w in zip(r[:4], widths)) + "  " + r[4])
-    bad = scan.get("incomplete_frames") or []
+    bad = scan.incomplete_frames
     if bad:
         lines.append("warning: frame(s) " + ", ".join(str(k) for k in bad) +
                      " fail Poincaré–Hopf (critical points may be missing)")

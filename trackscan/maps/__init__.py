@@ -17,7 +17,7 @@ References
    :DOI:`10.1088/0034-4885/44/8/002`
 """
 
-from trackscan.maps.analyze import analyze_plane, plane_scan_dict
+from trackscan.maps.analyze import analyze_plane, assemble_plane
 from trackscan.maps.plane import Edge, edge_frames, plane_edges
 
-__all__ = ["analyze_plane", "plane_scan_dict", "Edge", "plane_edges", "edge_frames"]
+__all__ = ["analyze_plane", "assemble_plane", "Edge", "plane_edges", "edge_frames"]

@@ -3,7 +3,8 @@
 ``analyze_plane(manifest)`` makes the missing frames with the manifest's
 generator, analyses every frame with the scan runner
 (:func:`trackscan.analysis.runner.analyse_frames`, cached like a 1-D scan),
-and assembles the scan.json dict of a plane scan (DESIGN.md "2-D scans"):
+and assembles the result of a plane scan (a
+:class:`~trackscan.maps.model.PlaneScanResult`; DESIGN.md "2-D scans"):
 
 - ``dimensions: 2``, ``scan.coordinates: [{label, unit, ...}, {...}]``;
 - each frame with ``values: [v1, v2]`` and its ``structure`` number;
@@ -17,26 +18,27 @@ and assembles the scan.json dict of a plane scan (DESIGN.md "2-D scans"):
 
 from __future__ import annotations
 
-import copy
+import dataclasses
 import logging
 import os
 from pathlib import Path
 
 from trackscan import __version__
-from trackscan.analysis.scanjson import SCHEMA
 from trackscan.errors import InputError
+from trackscan.maps.model import (PLANE_DIMENSIONS, Boundary, PlaneFrame, PlaneHeader,
+                                  PlaneScanResult)
 from trackscan.maps.plane import Edge, along_value, edge_frames, plane_edges
+from trackscan.model import Coordinate, Frame, ProbeRecord, Structure, Uncertainty
 from trackscan.progress import report
 from trackscan.tracking import TrackingSettings, track_scan
 
-__all__ = ["analyze_plane", "plane_scan_dict", "ensure_plane_frames", "load_plane_frames",
-           "structure_labels", "track_edge", "boundary_edges", "PLANE_DIMENSIONS"]
+__all__ = ["analyze_plane", "assemble_plane", "ensure_plane_frames", "load_plane_frames",
+           "structure_labels", "track_edge", "boundary_edges", "place_plane_frame", "edge_frame",
+           "plane_boundaries"]
 
 logger = logging.getLogger(__name__)
 
-#: ``dimensions`` of a plane scan's scan.json.
-PLANE_DIMENSIONS = 2
-
+#: Key of the refine bookkeeping in a record entry.
 REFINE_KEY = "refine"
 
 
@@ -109,9 +111,9 @@ def _recorded(manifest) -> dict:
 
 
 def load_plane_frames(manifest, *, backend=None, cache_dir=None, progress=None) -> list:
-    """Analysed frame dicts of every frame of a plane scan, in scan order.
+    """Analysed frames of every frame of a plane scan (PlaneFrame), in manifest order.
 
-    Each gets ``values``, ``source`` (relative to the manifest), its energy
+    Each has ``values``, ``source`` (relative to the manifest), its energy
     when known, and the ``refine`` record of frames refinement made.
     """
     from trackscan.refine.backends import LocalBackend
@@ -121,23 +123,35 @@ def load_plane_frames(manifest, *, backend=None, cache_dir=None, progress=None) 
     frames = backend.analyse([e.file for e in entries], manifest.analysis,
                              periodic=manifest.periodic, cache_dir=cache_dir, progress=progress)
     recorded = _recorded(manifest)
-    for entry, frame in zip(entries, frames):
-        describe_plane_frame(manifest, frame, entry.file, entry.values, entry.energy,
-                             recorded.get(os.path.normcase(os.path.abspath(entry.file))))
-    return frames
+    return [place_plane_frame(manifest, frame, entry.file, entry.values, entry.energy,
+                              recorded.get(os.path.normcase(os.path.abspath(entry.file))))
+            for entry, frame in zip(entries, frames)]
 
 
-def describe_plane_frame(manifest, frame, file, values, energy=None, record=None) -> dict:
-    """Give an analysed frame dict its plane-scan keys (in place; returned)."""
-    frame["values"] = [float(v) for v in values]
-    frame["source"] = Path(os.path.relpath(file, manifest.base_dir)).as_posix()
+def place_plane_frame(manifest, frame, file, values, energy=None, record=None) -> PlaneFrame:
+    """An analysed frame as a :class:`PlaneFrame` with its place in the plane (a new object).
+
+    Parameters
+    ----------
+    manifest : ScanManifest2D
+    frame : trackscan.model.Frame
+    file : path-like
+        Its cube; ``source`` is written relative to the manifest's folder.
+    values : (float, float)
+    energy : float, optional
+    record : dict, optional
+        Its entry in the record of generated frames (energy, ``refine``).
+    """
     if energy is None and record is not None:
         energy = record.get("energy")
-    if energy is not None:
-        frame["energy_hartree"] = float(energy)
-    if record is not None and isinstance(record.get(REFINE_KEY), dict):
-        frame[REFINE_KEY] = dict(record[REFINE_KEY])
-    return frame
+    meta = None if record is None else record.get(REFINE_KEY)
+    fields = {f.name: getattr(frame, f.name) for f in dataclasses.fields(Frame)}
+    fields.update(values=tuple(float(v) for v in values),
+                  source=Path(os.path.relpath(file, manifest.base_dir)).as_posix(),
+                  energy_hartree=None if energy is None else float(energy),
+                  refine=ProbeRecord.from_dict(meta, "refine") if isinstance(meta, dict)
+                  else getattr(frame, "refine", None))
+    return PlaneFrame(**fields)
 
 
 def structure_labels(frames) -> tuple:
@@ -146,42 +160,31 @@ def structure_labels(frames) -> tuple:
     Each frame's structure key comes from tracking that frame on its own
     (:func:`trackscan.tracking.track_scan`): its bond paths by their ends,
     non-nuclear attractors, ring and cage counts.  Numbers go 1, 2, ... in
-    order of first appearance in scan order.
+    order of first appearance in the order of `frames`.
 
     Returns
     -------
     numbers : list of int
-    table : list of dict
-        ``number``, ``frames``, ``bond_paths``, ``rings``, ``cages``,
-        ``non_nuclear``.
+    table : tuple of trackscan.model.Structure
     """
     keys, entries = [], []
     for f in frames:
-        g = dict(f)
-        g["value"] = 0.0
-        s = track_scan([g])["structures"][0]
-        key = (tuple(tuple(b) for b in s["bond_paths"]), tuple(s["non_nuclear"]),
-               s["rings"], s["cages"])
-        keys.append(key)
+        s = track_scan([dataclasses.replace(f, value=0.0)]).structures[0]
+        keys.append((tuple(tuple(b) for b in s.bond_paths), tuple(s.non_nuclear), s.rings,
+                     s.cages))
         entries.append(s)
     seen: dict = {}
-    numbers = []
-    table = []
+    numbers, members, first = [], [], []
     for k, (key, s) in enumerate(zip(keys, entries)):
         if key not in seen:
             seen[key] = len(seen) + 1
-            table.append({"number": seen[key], "frames": [], "bond_paths": s["bond_paths"],
-                          "non_nuclear": s["non_nuclear"], "rings": s["rings"],
-                          "cages": s["cages"]})
+            members.append([])
+            first.append(s)
         numbers.append(seen[key])
-        table[seen[key] - 1]["frames"].append(k)
+        members[seen[key] - 1].append(k)
+    table = tuple(dataclasses.replace(s, number=n, frames=tuple(m))
+                  for n, (s, m) in enumerate(zip(first, members), start=1))
     return numbers, table
-
-
-def _edge_copy(frame, axis) -> dict:
-    g = copy.copy(frame)
-    g["value"] = float(frame["values"][axis])
-    return g
 
 
 def track_edge(frames, edge: Edge, values, *, tracking=None, unit="", tolerance=None,
@@ -190,8 +193,8 @@ def track_edge(frames, edge: Edge, values, *, tracking=None, unit="", tolerance=
 
     Parameters
     ----------
-    frames : sequence of dict
-        All frames of the plane, in scan order (with ``values``).
+    frames : sequence of PlaneFrame
+        All frames of the plane, in scan order.
     edge : Edge
     values : sequence of (float, float)
     tracking : TrackingSettings, optional
@@ -206,9 +209,9 @@ def track_edge(frames, edge: Edge, values, *, tracking=None, unit="", tolerance=
     -------
     on : list of int
         Plane indices of the edge's frames, in order along it.
-    tracked : dict
-        :func:`track_scan` result on them (``value``: the varying coordinate).
-    changes : list of dict
+    tracked : TrackingResult
+        :func:`track_scan` on them (``value``: the varying coordinate).
+    changes : tuple of trackscan.model.Change
         Its changes with estimate, method and uncertainty
         (:func:`trackscan.refine.estimates.annotate_changes`).
     """
@@ -216,38 +219,50 @@ def track_edge(frames, edge: Edge, values, *, tracking=None, unit="", tolerance=
     from trackscan.refine.indicators import DEFAULT_GTOL
 
     on = edge_frames(edge, values)
-    tracked = track_scan([_edge_copy(frames[k], edge.axis) for k in on],
+    tracked = track_scan([edge_frame(frames[k], edge.axis) for k in on],
                          settings=tracking or TrackingSettings(), unit=unit)
-    changes = annotate_changes(tracked["frames"], tracked["changes"], tolerance=tolerance,
+    changes = annotate_changes(tracked.frames, tracked.changes, tolerance=tolerance,
                                gtol=DEFAULT_GTOL if gtol is None else gtol)
     return on, tracked, changes
 
 
+def edge_frame(frame: PlaneFrame, axis: int) -> PlaneFrame:
+    """The frame as a frame of the 1-D scan along `axis` (``value`` = that coordinate)."""
+    return dataclasses.replace(frame, value=float(frame.values[axis]))
+
+
 def boundary_edges(frames, values, numbers) -> list:
     """Grid edges whose two ends have different structures."""
-    refined = [isinstance(f.get(REFINE_KEY), dict) for f in frames]
+    refined = [f.refine is not None for f in frames]
     return [e for e in plane_edges(values, refined) if numbers[e.a] != numbers[e.b]]
 
 
-def _boundary(change, edge, on, values, numbers) -> dict:
-    i, j = (on[k] for k in change["between"])
-    b = {
-        "between": [i, j],
-        "bracket": [list(values[i]), list(values[j])],
-        "estimate": list(along_value(edge, change["estimate"], values)),
-        "estimate_method": change.get("estimate_method"),
-        "uncertainty": change.get("uncertainty"),
-        "mechanism": change["mechanism"],
-        "events": change["events"],
-        "structures": [numbers[i], numbers[j]],
-        "edge": [edge.a, edge.b],
-        "along": edge.axis,
-        "evaluations": change.get("evaluations", 0),
-    }
-    for key in ("note", "refine", "structure_type_changed", "mechanism_candidate"):
-        if change.get(key) is not None:
-            b[key] = change[key]
-    return b
+def _boundary(change, edge, on, values, numbers) -> Boundary:
+    i, j = (on[k] for k in change.between)
+    estimate = change.estimate
+    if estimate is None:
+        estimate = 0.5 * (float(change.bracket[0]) + float(change.bracket[1]))
+    return Boundary(
+        between=(i, j), bracket=(tuple(values[i]), tuple(values[j])),
+        mechanism=change.mechanism, structures=(numbers[i], numbers[j]),
+        estimate=along_value(edge, estimate, values), uncertainty=change.uncertainty,
+        events=change.events, edge=(edge.a, edge.b), along=edge.axis,
+        estimate_method=change.estimate_method, evaluations=change.evaluations or 0,
+        refine=change.refine, note=change.note,
+        structure_type_changed=change.structure_type_changed,
+        mechanism_candidate=change.mechanism_candidate)
+
+
+def _unresolved_boundary(edge, values, numbers) -> Boundary:
+    lo, hi = values[edge.a][edge.axis], values[edge.b][edge.axis]
+    return Boundary(
+        between=(edge.a, edge.b), bracket=(tuple(values[edge.a]), tuple(values[edge.b])),
+        mechanism="unresolved", structures=(numbers[edge.a], numbers[edge.b]),
+        estimate=along_value(edge, 0.5 * (lo + hi), values),
+        uncertainty=Uncertainty(half_width=0.5 * abs(hi - lo), model_error=None),
+        edge=(edge.a, edge.b), along=edge.axis, estimate_method="bracket-midpoint",
+        evaluations=0, note="the structure numbers of the two ends differ but tracking along "
+                            "the edge finds no change")
 
 
 def plane_boundaries(frames, values, numbers, *, units, tracking=None, tolerance=None,
@@ -262,30 +277,24 @@ def plane_boundaries(frames, values, numbers, *, units, tracking=None, tolerance
     out = []
     for edge in boundary_edges(frames, values, numbers):
         tol = None if tolerance is None else tolerance[edge.axis]
-        on, tracked, changes = track_edge(frames, edge, values, tracking=tracking,
-                                          unit=units[edge.axis], tolerance=tol, gtol=gtol)
-        if not changes:
-            half = 0.5 * abs(values[edge.b][edge.axis] - values[edge.a][edge.axis])
-            mid = 0.5 * (values[edge.a][edge.axis] + values[edge.b][edge.axis])
-            changes = [{"between": [on.index(edge.a), on.index(edge.b)], "estimate": mid,
-                        "estimate_method": "bracket-midpoint",
-                        "uncertainty": {"half_width": half, "model_error": None},
-                        "mechanism": "unresolved", "events": [],
-                        "note": "the structure numbers of the two ends differ but tracking "
-                                "along the edge finds no change"}]
-        out.extend(_boundary(ch, edge, on, values, numbers) for ch in changes)
+        on, _, changes = track_edge(frames, edge, values, tracking=tracking,
+                                    unit=units[edge.axis], tolerance=tol, gtol=gtol)
+        if changes:
+            out.extend(_boundary(ch, edge, on, values, numbers) for ch in changes)
+        else:
+            out.append(_unresolved_boundary(edge, values, numbers))
     return out
 
 
-def plane_scan_dict(manifest, frames, *, source: str, tracking=None, out_dir=None,
-                    tolerance=None) -> dict:
-    """The scan.json dict of an analysed plane scan.
+def assemble_plane(manifest, frames, *, source: str, tracking=None, out_dir=None,
+                    tolerance=None, refine_summary=None) -> PlaneScanResult:
+    """The result of an analysed plane scan (write it with ``write_scan``).
 
     Parameters
     ----------
     manifest : ScanManifest2D
-    frames : list of dict
-        Analysed frames (with ``values``), in scan order.
+    frames : sequence of PlaneFrame
+        Analysed and placed frames (:func:`load_plane_frames`), any order.
     source : str
         Density source, one line.
     tracking : TrackingSettings, optional
@@ -293,49 +302,45 @@ def plane_scan_dict(manifest, frames, *, source: str, tracking=None, out_dir=Non
         Output folder (the manifest's path is stored relative to it).
     tolerance : (float, float), optional
         Refine tolerances along the first and the second coordinate.
+    refine_summary : dict, optional
+        ``scan.refine``: what a refine run did.
+
+    Returns
+    -------
+    PlaneScanResult
     """
     tracking = tracking or TrackingSettings()
-    order = sorted(range(len(frames)), key=lambda k: tuple(frames[k]["values"]))
-    frames = [copy.deepcopy(frames[k]) for k in order]
-    values = [tuple(f["values"]) for f in frames]
+    frames = sorted(frames, key=lambda f: tuple(f.values))
+    values = [tuple(f.values) for f in frames]
     if len(set(values)) != len(values):
         raise InputError("two frames of the plane share their coordinate values")
     numbers, table = structure_labels(frames)
-    for k, (f, n) in enumerate(zip(frames, numbers)):
-        f["index"] = k
-        f["structure"] = n
+    frames = [dataclasses.replace(f, index=k, structure=n)
+              for k, (f, n) in enumerate(zip(frames, numbers))]
     units = [c.unit for c in manifest.coordinates]
     boundaries = plane_boundaries(frames, values, numbers, units=units, tracking=tracking,
                                   tolerance=tolerance, gtol=manifest.analysis.gtol)
     logger.info("%s: %d frames, %d structures, %d boundary points", manifest.name,
                 len(frames), len(table), len(boundaries))
-    scan = {
-        "name": manifest.name,
-        "coordinates": [c.to_dict() for c in manifest.coordinates],
-        "density_source": source,
-        "settings": manifest.analysis.to_dict(),
-        "tracking": tracking.to_dict(),
-        "periodic": bool(manifest.periodic),
-        "trackscan_version": __version__,
-    }
-    if manifest.description:
-        scan["description"] = manifest.description
-    if out_dir is not None:
-        scan["manifest"] = Path(os.path.relpath(manifest.path, out_dir)).as_posix()
-    return {
-        "schema": SCHEMA,
-        "dimensions": PLANE_DIMENSIONS,
-        "scan": scan,
-        "frames": frames,
-        "structures": table,
-        "boundaries": boundaries,
-        "incomplete_frames": [k for k, f in enumerate(frames) if f.get("complete") is False],
-    }
+    header = PlaneHeader(
+        name=manifest.name,
+        coordinates=tuple(Coordinate.from_dict(c.to_dict(), f"scan.coordinates[{i}]")
+                          for i, c in enumerate(manifest.coordinates)),
+        density_source=source, settings=manifest.analysis.to_dict(),
+        tracking=tracking.to_dict(), periodic=bool(manifest.periodic),
+        trackscan_version=__version__, description=manifest.description or None,
+        manifest=None if out_dir is None else
+        Path(os.path.relpath(manifest.path, out_dir)).as_posix(),
+        refine=refine_summary)
+    return PlaneScanResult(
+        scan=header, frames=tuple(frames), structures=table, boundaries=tuple(boundaries),
+        incomplete_frames=tuple(k for k, f in enumerate(frames) if not f.usable),
+        dimensions=PLANE_DIMENSIONS)
 
 
 def analyze_plane(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None,
-                  dask=None) -> dict:
-    """Analyse every frame of a plane scan and find its boundaries; the scan.json dict.
+                  dask=None) -> PlaneScanResult:
+    """Analyse every frame of a plane scan and find its boundaries.
 
     Parameters
     ----------
@@ -351,9 +356,10 @@ def analyze_plane(manifest, *, out_dir=None, jobs=1, tracking=None, progress=Non
 
     Returns
     -------
-    dict
-        See :func:`plane_scan_dict`.
+    PlaneScanResult
+        See :func:`assemble_plane`.
     """
+    from trackscan.io.manifest import load_manifest
     from trackscan.refine.backends import make_backend
 
     if jobs < 1:
@@ -361,12 +367,10 @@ def analyze_plane(manifest, *, out_dir=None, jobs=1, tracking=None, progress=Non
     backend = make_backend(jobs=jobs, dask=dask)
     try:
         source = ensure_plane_frames(manifest, backend=backend, progress=progress)
-        from trackscan.io.manifest import load_manifest
-
         manifest = load_manifest(manifest.path)
         cache_dir = None if out_dir is None else Path(out_dir) / ".cache"
         frames = load_plane_frames(manifest, backend=backend, cache_dir=cache_dir,
                                    progress=progress)
     finally:
         backend.close()
-    return plane_scan_dict(manifest, frames, source=source, tracking=tracking, out_dir=out_dir)
+    return assemble_plane(manifest, frames, source=source, tracking=tracking, out_dir=out_dir)

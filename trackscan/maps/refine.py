@@ -26,8 +26,8 @@ from pathlib import Path
 
 from trackscan.errors import InputError
 from trackscan.maps.analyze import (
-    REFINE_KEY, boundary_edges, describe_plane_frame, ensure_plane_frames, load_plane_frames,
-    plane_scan_dict, structure_labels,
+    REFINE_KEY, assemble_plane, boundary_edges, edge_frame, ensure_plane_frames,
+    load_plane_frames, place_plane_frame, structure_labels,
 )
 from trackscan.maps.plane import along_value, edge_frames
 from trackscan.progress import report
@@ -70,12 +70,6 @@ def plane_tolerances(tolerance, tolerance2=None) -> tuple:
     return (float(tolerance), float(tolerance if tolerance2 is None else tolerance2))
 
 
-def _edge_frame(frame, axis) -> dict:
-    g = dict(frame)
-    g["value"] = float(frame["values"][axis])
-    return g
-
-
 def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int | None = None,
                  jobs: int = 1, out_dir=None, backend=None, generator=None, progress=None):
     """Narrow the brackets of every boundary edge of a plane scan.
@@ -101,9 +95,9 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
 
     Returns
     -------
-    scan : dict
-        The plane scan.json dict (:func:`trackscan.maps.analyze.plane_scan_dict`)
-        with ``scan.refine`` summarising the run.
+    scan : PlaneScanResult
+        :func:`trackscan.maps.analyze.assemble_plane`, with ``scan.refine``
+        summarising the run.
     result : PlaneRefineResult
 
     Raises
@@ -137,19 +131,18 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
     source = ensure_plane_frames(manifest, backend=backend, progress=progress)
     manifest = load_manifest(manifest.path)
     frames = load_plane_frames(manifest, backend=backend, cache_dir=cache_dir, progress=progress)
-    frames.sort(key=lambda f: tuple(f["values"]))
-    values = [tuple(f["values"]) for f in frames]
+    frames.sort(key=lambda f: tuple(f.values))
+    values = [tuple(f.values) for f in frames]
     numbers, _ = structure_labels(frames)
     edges = boundary_edges(frames, values, numbers)
     units = [c.unit for c in manifest.coordinates]
-    result = PlaneRefineResult(total_evaluations=sum(
-        1 for f in frames if isinstance(f.get(REFINE_KEY), dict)))
+    result = PlaneRefineResult(total_evaluations=sum(1 for f in frames if f.refine is not None))
 
     for n_edge, edge in enumerate(edges, start=1):
         ends = [list(values[edge.a]), list(values[edge.b])]
         on = edge_frames(edge, values)
-        line = [_edge_frame(frames[k], edge.axis) for k in on]
-        done_here = sum(1 for f in line if isinstance(f.get(REFINE_KEY), dict))
+        line = [edge_frame(frames[k], edge.axis) for k in on]
+        done_here = sum(1 for f in line if f.refine is not None)
         budget = None
         if max_evaluations is not None:
             budget = max(0, max_evaluations - result.total_evaluations) + done_here
@@ -176,11 +169,9 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
                 raise errors[0]
             new = backend.analyse([t[1] for t in tasks], manifest.analysis,
                                   periodic=manifest.periodic, cache_dir=cache_dir)
-            for p, t, out, f, meta, pt in zip(probes, tasks, made, new, metas, points):
-                describe_plane_frame(manifest, f, t[1], pt, out.energy)
-                f["value"] = float(p.value)
-                f[REFINE_KEY] = meta
-            return new
+            return [edge_frame(place_plane_frame(manifest, f, t[1], pt, out.energy,
+                                                 {REFINE_KEY: meta}), edge.axis)
+                    for t, out, f, meta, pt in zip(tasks, made, new, metas, points)]
 
         def track(fr, axis=edge.axis):
             return track_scan(fr, unit=units[axis])
@@ -203,10 +194,10 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
                       "some boundary brackets are still wider than the tolerance")
     final = load_manifest(manifest.path)
     frames = load_plane_frames(final, backend=backend, cache_dir=cache_dir)
-    scan = plane_scan_dict(final, frames, source=source, out_dir=out_dir, tolerance=tols)
-    scan["scan"]["refine"] = {"tolerance": list(tols), "max_evaluations": max_evaluations,
-                              "evaluations": result.total_evaluations,
-                              "boundary_edges": result.edges, "converged": result.converged,
-                              "message": result.message,
-                              "strategy": "along boundary grid edges only (no new edges)"}
+    summary = {"tolerance": list(tols), "max_evaluations": max_evaluations,
+               "evaluations": result.total_evaluations, "boundary_edges": result.edges,
+               "converged": result.converged, "message": result.message,
+               "strategy": "along boundary grid edges only (no new edges)"}
+    scan = assemble_plane(final, frames, source=source, out_dir=out_dir, tolerance=tols,
+                          refine_summary=summary)
     return scan, result

@@ -48,28 +48,40 @@ REGION_COLOURS = ("#56B4E9", "#E69F00", "#009E73", "#F0E442", "#CC79A7", "#0072B
 
 
 def plane_scan(scan):
-    """The parsed scan.json of a plane scan, or None when `scan` is a 1-D scan.
+    """A plane scan as a PlaneScanResult, or None when `scan` is not a plane scan.
 
     Parameters
     ----------
-    scan : dict, str or os.PathLike
-        The parsed content, the scan.json file, or its folder.
+    scan : PlaneScanResult, dict, str or os.PathLike
+        The result, its parsed scan.json, the file, or its folder.
+
+    Raises
+    ------
+    trackscan.model.ScanFormatError
+        A plane scan.json that is malformed (the message names the key path).
     """
-    if isinstance(scan, dict):
-        return scan if scan.get("dimensions") == 2 else None
-    p = Path(scan)
-    if p.is_dir():
-        p = p / "scan.json"
-    try:
-        data = json.loads(p.read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return None          # the 1-D reader reports the problem
-    return data if isinstance(data, dict) and data.get("dimensions") == 2 else None
+    from trackscan.maps.model import PLANE_DIMENSIONS, PlaneScanResult
+
+    if isinstance(scan, PlaneScanResult):
+        return scan
+    data = scan
+    if not isinstance(scan, dict):
+        if hasattr(scan, "to_dict"):
+            return None
+        p = Path(scan)
+        if p.is_dir():
+            p = p / "scan.json"
+        try:
+            data = json.loads(p.read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            return None          # the 1-D reader reports the problem
+    if not isinstance(data, dict) or data.get("dimensions") != PLANE_DIMENSIONS:
+        return None
+    return PlaneScanResult.from_dict(data)
 
 
 def _elements(scan):
-    frames = scan["frames"]
-    return [a["element"] for a in frames[0]["atoms"]] if frames else []
+    return list(scan.frames[0].elements) if scan.frames else []
 
 
 def _end(a, elements):
@@ -77,23 +89,22 @@ def _end(a, elements):
 
 
 def structure_words(structure: dict, elements) -> str:
-    """A structure in words: its bond paths and its ring/cage CPs."""
-    bonds = ", ".join("–".join(_end(a, elements) for a in bp) for bp in structure["bond_paths"])
+    """A structure (trackscan.model.Structure) in words: its bond paths and ring/cage CPs."""
+    bonds = ", ".join("–".join(_end(a, elements) for a in bp) for bp in structure.bond_paths)
     parts = [bonds or "no bond path"]
     extra = []
-    if structure.get("rings"):
-        extra.append(f"{structure['rings']} ring CP" + ("s" if structure["rings"] > 1 else ""))
-    if structure.get("cages"):
-        extra.append(f"{structure['cages']} cage CP" + ("s" if structure["cages"] > 1 else ""))
-    if structure.get("non_nuclear"):
-        extra.append(f"{len(structure['non_nuclear'])} non-nuclear attractor(s)")
+    if structure.rings:
+        extra.append(f"{structure.rings} ring CP" + ("s" if structure.rings > 1 else ""))
+    if structure.cages:
+        extra.append(f"{structure.cages} cage CP" + ("s" if structure.cages > 1 else ""))
+    if structure.non_nuclear:
+        extra.append(f"{len(structure.non_nuclear)} non-nuclear attractor(s)")
     parts.append("; ".join(extra) if extra else "no ring or cage CP")
     return "; ".join(parts)
 
 
-def _axis_label(c: dict) -> str:
-    unit = c.get("unit", "")
-    return f"{c.get('label', '')} ({unit})" if unit else c.get("label", "")
+def _axis_label(c) -> str:
+    return f"{c.label} ({c.unit})" if c.unit else c.label
 
 
 def _grid_steps(values):
@@ -118,15 +129,14 @@ def _regions(values, labels, lo, hi, steps):
 
 
 def _uncertainty(b) -> float:
-    u = b.get("uncertainty")
-    if isinstance(u, (int, float)):
-        return float(u)
-    if isinstance(u, dict):
+    """The ± of a boundary along its edge: the model error when there is one, else half the bracket."""
+    u = b.uncertainty
+    if u is not None:
+        d = u.to_dict()
         for k in ("value", "model_error", "half_width"):
-            if isinstance(u.get(k), (int, float)):
-                return float(u[k])
-    a, z = b["bracket"]
-    return 0.5 * abs(z[b.get("along", 0)] - a[b.get("along", 0)])
+            if isinstance(d.get(k), (int, float)) and not isinstance(d.get(k), bool):
+                return float(d[k])
+    return 0.5 * b.width
 
 
 def _chain(points, steps):
@@ -147,27 +157,27 @@ def _chain(points, steps):
     return [pts[i] for i in order]
 
 
-def structure_map_figure(scan: dict):
+def structure_map_figure(scan):
     """The structure map of a plane scan (a matplotlib Figure on the Agg canvas)."""
     from matplotlib.colors import ListedColormap
     from matplotlib.lines import Line2D
     from matplotlib.patches import Patch
 
-    frames = scan["frames"]
+    frames = scan.frames
     elements = _elements(scan)
-    c1, c2 = scan["scan"]["coordinates"]
-    values = np.array([f["values"] for f in frames], dtype=float)
-    labels = np.array([int(f["structure"]) for f in frames])
+    c1, c2 = scan.scan.coordinates
+    values = np.array([f.values for f in frames], dtype=float)
+    labels = np.array([int(f.structure) for f in frames])
     lo, hi = values.min(axis=0), values.max(axis=0)
     steps = _grid_steps(values)
     fig = new_figure(8.0, 5.6)
     ax = fig.add_subplot(1, 1, 1)
-    n = max(s["number"] for s in scan["structures"])
+    n = max(s.number for s in scan.structures)
     colours = [REGION_COLOURS[(k - 1) % len(REGION_COLOURS)] for k in range(1, n + 1)]
     xs, ys, raster = _regions(values, labels, lo, hi, steps)
     ax.pcolormesh(xs, ys, raster, cmap=ListedColormap(colours), vmin=0.5, vmax=n + 0.5,
                   shading="auto", alpha=0.35, rasterized=True)
-    energies = [f.get("energy_hartree") for f in frames]
+    energies = [f.energy_hartree for f in frames]
     if len(frames) >= 4 and all(isinstance(e, (int, float)) for e in energies):
         try:
             cs = ax.tricontour(values[:, 0], values[:, 1], np.array(energies, dtype=float),
@@ -175,24 +185,24 @@ def structure_map_figure(scan: dict):
             ax.clabel(cs, fontsize=6, fmt="%.4f")
         except (ValueError, RuntimeError):
             pass         # collinear frames: no triangulation, no contours
-    refined = np.array([isinstance(f.get("refine"), dict) for f in frames])
+    refined = np.array([f.refine is not None for f in frames])
     ax.scatter(values[~refined, 0], values[~refined, 1], s=14, c="black", zorder=4,
                label="grid frame")
     if refined.any():
         ax.scatter(values[refined, 0], values[refined, 1], s=10, c="#555555", marker="x",
                    lw=0.7, zorder=4, label="refinement frame")
     curves: dict = {}
-    for b in scan["boundaries"]:
-        key = (tuple(sorted(b["structures"])), b["mechanism"])
+    for b in scan.boundaries:
+        key = (tuple(sorted(b.structures)), b.mechanism)
         curves.setdefault(key, []).append(b)
     for (pair, mech), group in sorted(curves.items()):
-        pts = [np.array(b["estimate"], dtype=float) for b in group]
+        pts = [np.array(b.estimate, dtype=float) for b in group]
         chain = np.array(_chain(pts, steps))
         ls = MECHANISM_LINES.get(mech, ":")
         ax.plot(chain[:, 0], chain[:, 1], ls=ls, color=OKABE_ITO["black"], lw=1.3, zorder=5)
         for b, p in zip(group, pts):
             err = _uncertainty(b)
-            xerr, yerr = (err, 0.0) if b.get("along", 0) == 0 else (0.0, err)
+            xerr, yerr = (err, 0.0) if b.along == 0 else (0.0, err)
             ax.errorbar([p[0]], [p[1]], xerr=[xerr], yerr=[yerr], fmt="o", ms=3.5,
                         color=OKABE_ITO["vermillion"], ecolor=OKABE_ITO["vermillion"],
                         elinewidth=1.0, capsize=2, zorder=6)
@@ -200,11 +210,11 @@ def structure_map_figure(scan: dict):
     ax.set_ylim(lo[1], hi[1])
     ax.set_xlabel(_axis_label(c1))
     ax.set_ylabel(_axis_label(c2))
-    ax.set_title(f"Structure map of {scan['scan'].get('name', '')}")
-    handles = [Patch(facecolor=colours[s["number"] - 1], alpha=0.5,
-                     label=f"{s['number']}: {structure_words(s, elements)}")
-               for s in scan["structures"]]
-    used = sorted({b["mechanism"] for b in scan["boundaries"]})
+    ax.set_title(f"Structure map of {scan.scan.name}")
+    handles = [Patch(facecolor=colours[s.number - 1], alpha=0.5,
+                     label=f"{s.number}: {structure_words(s, elements)}")
+               for s in scan.structures]
+    used = sorted({b.mechanism for b in scan.boundaries})
     handles += [Line2D([], [], color="black", ls=MECHANISM_LINES.get(m, ":"),
                        label=f"{m} boundary") for m in used]
     handles.append(Line2D([], [], color=OKABE_ITO["vermillion"], marker="o", ls="",
@@ -245,40 +255,39 @@ def _boundary_rows(scan):
     from trackscan.tracking import describe_change
 
     elements = _elements(scan)
-    units = [c.get("unit", "") for c in scan["scan"]["coordinates"]]
-    labels = [c.get("label", "") for c in scan["scan"]["coordinates"]]
+    units = [c.unit for c in scan.scan.coordinates]
+    labels = [c.label for c in scan.scan.coordinates]
     rows = []
-    for n, b in enumerate(scan["boundaries"], start=1):
-        along = b.get("along", 0)
-        a, z = b["bracket"]
-        rows.append((str(n), f"{b['structures'][0]} → {b['structures'][1]}",
+    for n, b in enumerate(scan.boundaries, start=1):
+        a, z = b.bracket
+        rows.append((str(n), f"{b.structures[0]} → {b.structures[1]}",
                      f"{_fmt_point(a)} → {_fmt_point(z)}",
-                     f"{_fmt_point(b['estimate'])} ± {_uncertainty(b):.2g} {units[along]}",
-                     labels[along], b["mechanism"], describe_change(b, elements)))
+                     f"{_fmt_point(b.estimate)} ± {_uncertainty(b):.2g} {units[b.along]}",
+                     labels[b.along], b.mechanism, describe_change(b, elements)))
     return rows
 
 
-def plane_document(scan: dict, *, date=None):
+def plane_document(scan, *, date=None):
     """The report of a plane scan as a :class:`trackscan.report.document.Document`."""
     from trackscan.report.document import Document, Figure, Paragraph, Section, Table
 
     elements = _elements(scan)
-    c1, c2 = scan["scan"]["coordinates"]
-    frames = scan["frames"]
-    n_refined = sum(1 for f in frames if isinstance(f.get("refine"), dict))
+    c1, c2 = scan.scan.coordinates
+    frames = scan.frames
+    n_refined = sum(1 for f in frames if f.refine is not None)
     intro = (f"{len(frames)} frames over {_axis_label(c1)} and {_axis_label(c2)} "
              f"({len(frames) - n_refined} on the grid, {n_refined} added by refinement along "
-             f"boundary edges); {len(scan['structures'])} structures; "
-             f"{len(scan['boundaries'])} boundary points.  Density source: "
-             f"{scan['scan'].get('density_source', '')}.")
+             f"boundary edges); {len(scan.structures)} structures; "
+             f"{len(scan.boundaries)} boundary points.  Density source: "
+             f"{scan.scan.density_source or ''}.")
     blocks = [Paragraph(intro)]
-    if scan["scan"].get("description"):
-        blocks.append(Paragraph(scan["scan"]["description"].strip()))
+    if scan.scan.description:
+        blocks.append(Paragraph(scan.scan.description.strip()))
     if date:
         blocks.append(Paragraph(f"Report date: {date}."))
     fig = structure_map_figure(scan)
     png = to_png(fig)
-    doc = Document(title=f"Structure map: {scan['scan'].get('name', '')}")
+    doc = Document(title=f"Structure map: {scan.scan.name}")
     doc.sections.append(Section("overview", "Overview", tuple(blocks)))
     doc.sections.append(Section("structure-map", "Structure map", (Figure(
         "structure_map", png,
@@ -287,8 +296,8 @@ def plane_document(scan: dict, *, date=None):
         "conflict, dotted: mixed or unresolved); dots: grid frames, crosses: refinement "
         "frames; grey lines: energy contours (hartree) when energies are known.",
         "structure map"),)))
-    srows = tuple((str(s["number"]), structure_words(s, elements), str(s["rings"]),
-                   str(s["cages"]), str(len(s["frames"]))) for s in scan["structures"])
+    srows = tuple((str(s.number), structure_words(s, elements), str(s.rings),
+                   str(s.cages), str(len(s.frames))) for s in scan.structures)
     doc.sections.append(Section("structures", "Structures", (Table(
         "structures", ("structure", "bond paths; ring/cage CPs", "ring CPs", "cage CPs",
                        "frames"), srows),)))
@@ -298,7 +307,7 @@ def plane_document(scan: dict, *, date=None):
     doc.sections.append(Section("boundaries", "Boundaries", (Table(
         "boundaries", ("#", "structures", "bracket", "estimate", "along", "mechanism",
                        "events"), brows),) + words))
-    ref = scan["scan"].get("refine")
+    ref = scan.scan.refine
     if isinstance(ref, dict):
         doc.sections.append(Section("refinement", "Refinement", (Paragraph(
             f"{ref.get('evaluations', 0)} frames added along {ref.get('boundary_edges', 0)} "
@@ -317,7 +326,7 @@ def _write_csv(path, header, rows):
     write_text_atomic(path, buf.getvalue())
 
 
-def write_plane_report(scan: dict, out_dir, *, date="today", progress=None):
+def write_plane_report(scan, out_dir, *, date="today", progress=None):
     """Write the report of a plane scan; returns :class:`trackscan.report.writer.ReportFiles`.
 
     ``changes_csv`` is ``boundaries.csv`` and ``critical_points_csv`` is
@@ -346,16 +355,16 @@ def write_plane_report(scan: dict, out_dir, *, date="today", progress=None):
     elements = _elements(scan)
     structures_csv = out / "structures.csv"
     _write_csv(structures_csv, ("structure", "bond_paths", "rings", "cages", "frames"),
-               [(s["number"], structure_words(s, elements), s["rings"], s["cages"],
-                 " ".join(str(k) for k in s["frames"])) for s in scan["structures"]])
+               [(s.number, structure_words(s, elements), s.rings, s.cages,
+                 " ".join(str(k) for k in s.frames)) for s in scan.structures])
     boundaries_csv = out / "boundaries.csv"
     _write_csv(boundaries_csv, ("boundary", "frame_a", "frame_b", "a_value1", "a_value2",
                                 "b_value1", "b_value2", "estimate1", "estimate2",
                                 "uncertainty", "along", "mechanism", "structure_a",
                                 "structure_b"),
-               [(n, b["between"][0], b["between"][1], *b["bracket"][0], *b["bracket"][1],
-                 *b["estimate"], _uncertainty(b), b.get("along", 0), b["mechanism"],
-                 *b["structures"]) for n, b in enumerate(scan["boundaries"], start=1)])
+               [(n, b.between[0], b.between[1], *b.bracket[0], *b.bracket[1],
+                 *b.estimate, _uncertainty(b), b.along, b.mechanism,
+                 *b.structures) for n, b in enumerate(scan.boundaries, start=1)])
     footer = (f"Made by trackscan {__version__} from scan.json"
               + (f" on {date}" if date else "") + ".")
     md = out / "report.md"
