@@ -1,9 +1,9 @@
 """Structure maps of plane scans: the figure and the report of a scan with two coordinates.
 
 The figure is the structure diagram of Bader, Nguyen-Dang and Tal [1]_ drawn
-from the frames: the plane coloured by the structure of the nearest frame
-(distances measured in grid steps of each coordinate, so a degree and an
-angstrom count alike), the legend saying which bond paths and ring/cage CPs
+from the frames: the plane coloured by structure (each structure's indicator
+interpolated linearly between the frames, distances measured in grid steps
+of each coordinate so that a degree and an angstrom count alike), the legend saying which bond paths and ring/cage CPs
 each structure has; the boundary points (estimates) with their uncertainty
 along their edge, joined into curves per pair of structures -- solid for
 folds, dashed for conflicts, dotted for mixed or unresolved changes; the
@@ -118,14 +118,36 @@ def _grid_steps(values):
 
 
 def _regions(values, labels, lo, hi, steps):
-    xs = np.linspace(lo[0], hi[0], RASTER)
-    ys = np.linspace(lo[1], hi[1], RASTER)
+    """Structure label on a raster of the plane.
+
+    Each structure's indicator (1 at its frames, 0 elsewhere) is interpolated
+    linearly over the Delaunay triangulation of the frames (in grid steps)
+    and the raster point takes the structure with the largest value, so
+    region edges run between the frames that differ, through the refinement
+    frames along the boundary edges; points no triangle covers take the
+    nearest frame's structure.
+    """
+    from scipy.interpolate import griddata
     from scipy.spatial import cKDTree
 
-    tree = cKDTree(values / steps)
+    xs = np.linspace(lo[0], hi[0], RASTER)
+    ys = np.linspace(lo[1], hi[1], RASTER)
     X, Y = np.meshgrid(xs, ys)
-    _, idx = tree.query(np.column_stack([X.ravel(), Y.ravel()]) / steps)
-    return xs, ys, labels[idx].reshape(X.shape)
+    pts = np.column_stack([X.ravel(), Y.ravel()]) / steps
+    scaled = values / steps
+    kinds = np.unique(labels)
+    _, nearest = cKDTree(scaled).query(pts)
+    out = labels[nearest]
+    if len(kinds) > 1 and len(values) >= 3:
+        try:
+            ind = np.column_stack([griddata(scaled, (labels == k).astype(float), pts,
+                                            method="linear") for k in kinds])
+        except Exception:            # degenerate (collinear) frames: no triangulation
+            ind = None
+        if ind is not None:
+            ok = np.all(np.isfinite(ind), axis=1)
+            out = np.where(ok, kinds[np.argmax(np.nan_to_num(ind, nan=-1.0), axis=1)], out)
+    return xs, ys, out.reshape(X.shape)
 
 
 def _uncertainty(b) -> float:
@@ -137,6 +159,13 @@ def _uncertainty(b) -> float:
             if isinstance(d.get(k), (int, float)) and not isinstance(d.get(k), bool):
                 return float(d[k])
     return 0.5 * b.width
+
+
+def _evidence(b) -> str:
+    """The mechanism a boundary's events point to (its candidate when judged unresolved)."""
+    if b.mechanism == "unresolved" and b.mechanism_candidate:
+        return b.mechanism_candidate
+    return b.mechanism
 
 
 def _chain(points, steps):
@@ -193,19 +222,23 @@ def structure_map_figure(scan):
                    lw=0.7, zorder=4, label="refinement frame")
     curves: dict = {}
     for b in scan.boundaries:
-        key = (tuple(sorted(b.structures)), b.mechanism)
-        curves.setdefault(key, []).append(b)
-    for (pair, mech), group in sorted(curves.items()):
-        pts = [np.array(b.estimate, dtype=float) for b in group]
-        chain = np.array(_chain(pts, steps))
-        ls = MECHANISM_LINES.get(mech, ":")
-        ax.plot(chain[:, 0], chain[:, 1], ls=ls, color=OKABE_ITO["black"], lw=1.3, zorder=5)
-        for b, p in zip(group, pts):
+        curves.setdefault(tuple(sorted(b.structures)), []).append(b)
+    for pair, group in sorted(curves.items()):
+        order = _chain([np.array(b.estimate, dtype=float) for b in group], steps)
+        by_point = {tuple(np.array(b.estimate, dtype=float)): b for b in group}
+        chain = [by_point[tuple(p)] for p in order]
+        for b0, b1 in zip(chain, chain[1:]):
+            m0, m1 = _evidence(b0), _evidence(b1)
+            ls = MECHANISM_LINES.get(m0 if m0 == m1 else "mixed", ":")
+            ax.plot([b0.estimate[0], b1.estimate[0]], [b0.estimate[1], b1.estimate[1]], ls=ls,
+                    color=OKABE_ITO["black"], lw=1.3, zorder=5)
+        for b in group:
             err = _uncertainty(b)
             xerr, yerr = (err, 0.0) if b.along == 0 else (0.0, err)
-            ax.errorbar([p[0]], [p[1]], xerr=[xerr], yerr=[yerr], fmt="o", ms=3.5,
-                        color=OKABE_ITO["vermillion"], ecolor=OKABE_ITO["vermillion"],
-                        elinewidth=1.0, capsize=2, zorder=6)
+            face = "white" if b.mechanism == "unresolved" else OKABE_ITO["vermillion"]
+            ax.errorbar([b.estimate[0]], [b.estimate[1]], xerr=[xerr], yerr=[yerr], fmt="o",
+                        ms=3.5, mfc=face, color=OKABE_ITO["vermillion"],
+                        ecolor=OKABE_ITO["vermillion"], elinewidth=1.0, capsize=2, zorder=6)
     ax.set_xlim(lo[0], hi[0])
     ax.set_ylim(lo[1], hi[1])
     ax.set_xlabel(_axis_label(c1))
@@ -214,11 +247,17 @@ def structure_map_figure(scan):
     handles = [Patch(facecolor=colours[s.number - 1], alpha=0.5,
                      label=f"{s.number}: {structure_words(s, elements)}")
                for s in scan.structures]
-    used = sorted({b.mechanism for b in scan.boundaries})
+    used = sorted({_evidence(b) for b in scan.boundaries})
     handles += [Line2D([], [], color="black", ls=MECHANISM_LINES.get(m, ":"),
-                       label=f"{m} boundary") for m in used]
+                       label=f"{m} line" if m != "unresolved" else "mixed or unresolved line")
+                for m in used if m in ("fold", "conflict")]
+    if any(_evidence(b) not in ("fold", "conflict") for b in scan.boundaries) or len(used) > 1:
+        handles.append(Line2D([], [], color="black", ls=":", label="mixed or unresolved line"))
     handles.append(Line2D([], [], color=OKABE_ITO["vermillion"], marker="o", ls="",
                           label="boundary estimate ± uncertainty"))
+    if any(b.mechanism == "unresolved" for b in scan.boundaries):
+        handles.append(Line2D([], [], color=OKABE_ITO["vermillion"], marker="o", mfc="white",
+                              ls="", label="boundary judged unresolved (events as drawn)"))
     handles.append(Line2D([], [], color="black", marker="o", ls="", ms=4, label="grid frame"))
     if refined.any():
         handles.append(Line2D([], [], color="#555555", marker="x", ls="",
@@ -291,9 +330,9 @@ def plane_document(scan, *, date=None):
     doc.sections.append(Section("overview", "Overview", tuple(blocks)))
     doc.sections.append(Section("structure-map", "Structure map", (Figure(
         "structure_map", png,
-        "The plane coloured by the structure of the nearest frame; boundary points with their "
+        "The plane coloured by structure (interpolated between the frames); boundary points with their "
         "uncertainty along their edge, joined per pair of structures (solid: fold, dashed: "
-        "conflict, dotted: mixed or unresolved); dots: grid frames, crosses: refinement "
+        "conflict, dotted: mixed or unresolved; hollow: judged unresolved); dots: grid frames, crosses: refinement "
         "frames; grey lines: energy contours (hartree) when energies are known.",
         "structure map"),)))
     srows = tuple((str(s.number), structure_words(s, elements), str(s.rings),
