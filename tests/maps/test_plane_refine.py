@@ -171,3 +171,32 @@ def test_plane_scan_json_round_trips_through_the_model(refined):
     model = PlaneScanResult.from_dict(scan)
     assert len(model.boundaries) == len(scan["boundaries"]) > 0
     assert dumps_scan(model) == (out / "scan.json").read_text()
+
+
+@pytest.mark.slow
+def test_structure_map_legend_contours_and_report_words(refined):
+    from matplotlib.contour import ContourSet
+
+    from trackscan.maps.model import PlaneScanResult
+    from trackscan.report.structure_map import plane_document, structure_map_figure
+
+    scan, out = refined
+    model = PlaneScanResult.from_dict(scan)
+    fig = structure_map_figure(model)
+    ax = fig.axes[0]
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert any("H1–H2, H1–H3; no ring or cage CP" in t for t in legend)
+    assert not any(isinstance(c, ContourSet) for c in ax.get_children())
+    # with energies (a made-up smooth surface in hartree) the map draws their contours
+    data = json.loads((out / "scan.json").read_text())
+    for f in data["frames"]:
+        d, t = f["values"]
+        f["energy_hartree"] = -1.5 + 0.1 * (d - 1.0) ** 2 + 1e-4 * (t - 60.0) ** 2
+    fig = structure_map_figure(PlaneScanResult.from_dict(data))
+    assert any(isinstance(c, ContourSet) for c in fig.axes[0].get_children())
+    doc, _ = plane_document(model)
+    tables = {t.key: t for t in doc.tables()}
+    assert len(tables["structures"].rows) == len(scan["structures"])
+    assert len(tables["boundaries"].rows) == len(scan["boundaries"])
+    text = (out / "report.md").read_text()
+    assert "bond path H1–H2 switched to H1–H3" in text

@@ -8,7 +8,9 @@ a command that does not use ``{xyz}``)::
         xyz: start.xyz                 # base geometry (first frame of the file) ...
         drive: {distance: [1, 2]}      # ... with one driven coordinate
                                        #   (or angle: [i, j, k] / dihedral: [i, j, k, l];
-                                       #   optional move: [..] and unit: bohr|angstrom|degree|radian)
+                                       #   optional move: [..] and unit: bohr|angstrom|degree|radian;
+                                       #   a plane scan gives a list of two drives, one per
+                                       #   coordinate, each with its own move: [..])
         # or:  trajectory: relaxed-scan.xyz   (frames carry "value=..." comments,
         #      or give values: [..], or the coordinate's definition is measured)
       # one density source; with none, trackscan only writes geometries
@@ -16,6 +18,7 @@ a command that does not use ``{xyz}``)::
       promolecule: {spacing: 0.15, margin: 4.0}          # built-in model; bohr
       pyscf: {method: HF, basis: 6-31g, charge: 0, spin: 0, spacing: 0.2, margin: 4.0}
       command: ["my-qc-wrapper", "--at", "{value}", "--geom", "{xyz}", "--out", "{cube}"]
+                                       # (a plane scan: "{value1}" and "{value2}")
       timeout: 600                     # seconds, for command only
 
 Paths resolve relative to the manifest.  Wrong keys and values raise
