@@ -73,7 +73,7 @@ def refined(tmp_path_factory):
     (root / "h3.xyz").write_text(XYZ)
     out = root / "out"
     code = main(["refine", str(root / "scan.yaml"), "--tolerance", str(T_DISTANCE),
-                 "--tolerance2", str(T_ANGLE), "--out", str(out)])
+                 "--tolerance2", str(T_ANGLE), "--subdivide", "--out", str(out)])
     assert code == 0
     return json.loads((out / "scan.json").read_text()), out
 
@@ -109,6 +109,10 @@ def test_refined_brackets_hold_a_real_change_and_meet_the_tolerance(refined):
     scan, _ = refined
     bounds = scan["boundaries"]
     assert len(bounds) >= 4
+    # --subdivide added mid-line edges inside crossed cells, and they found boundary points
+    grid = {f["index"] for f in scan["frames"] if "refine" not in f}
+    assert scan["scan"]["refine"]["added_edges"] >= 1
+    assert any(not set(b["edge"]) <= grid for b in bounds)
     tols = (T_DISTANCE, T_ANGLE)
     for b in bounds:
         a, z = b["bracket"]
@@ -123,6 +127,7 @@ def test_refined_brackets_hold_a_real_change_and_meet_the_tolerance(refined):
 def test_every_coarse_boundary_gets_boundary_points(refined):
     scan, _ = refined
     grid = {tuple(f["values"]): f["index"] for f in scan["frames"] if "refine" not in f}
+    assert scan["scan"]["refine"]["converged"] is True
     assert len(grid) == len(D_VALUES) * len(ANGLES)
     ref = {v: reference(v) for v in grid}
     assert len(set(ref.values())) >= 3             # the coarse grid sees three structures
@@ -158,8 +163,8 @@ def test_new_frames_against_a_uniform_grid(refined, capsys):
     uniform = n1 * n2 - len(D_VALUES) * len(ANGLES)
     assert 0 < new < uniform
     with capsys.disabled():
-        print(f"\nplane refine: {new} new frames vs {uniform} for a uniform grid at "
-              f"({T_DISTANCE} A, {T_ANGLE} deg): ratio {new / uniform:.3f}")
+        print(f"\nplane refine --subdivide: {new} new frames vs {uniform} for a uniform grid "
+              f"at ({T_DISTANCE} A, {T_ANGLE} deg): ratio {new / uniform:.3f}")
 
 
 @pytest.mark.slow

@@ -94,13 +94,17 @@ def refine_plane_command(args, manifest) -> int:
         scan, result = refine_plane(manifest, tolerance=args.tolerance,
                                     tolerance2=getattr(args, "tolerance2", None),
                                     max_evaluations=args.max_evaluations, jobs=args.jobs,
-                                    out_dir=out, backend=backend, progress=progress)
+                                    out_dir=out, backend=backend, progress=progress,
+                                    subdivide=getattr(args, "subdivide", False))
     finally:
         backend.close()
     path, files = _write(scan, out, manifest)
     progress.close()
     print(f"refine: {result.message}; {result.evaluations} new frame(s) this run on "
-          f"{result.edges} boundary edge(s), {result.total_evaluations} in all")
+          f"{result.edges} boundary edge(s)"
+          + (f" ({result.added_edges} edge(s) added inside grid cells)"
+             if result.added_edges else "")
+          + f", {result.total_evaluations} in all")
     for line in plane_summary_lines(scan):
         print(line)
     print(f"wrote {os.fspath(path)} and {os.fspath(files.html)}")

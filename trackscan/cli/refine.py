@@ -16,7 +16,9 @@ frame analyses to a dask.distributed scheduler instead (extra 'dask').
 
 A plane scan (two coordinates) is refined along its boundary edges only:
 each bracket to at most --tolerance along the first coordinate and
---tolerance2 (default --tolerance) along the second, in their units.
+--tolerance2 (default --tolerance) along the second, in their units;
+--subdivide adds one mid-line edge inside each grid cell a boundary crosses
+(computing its two ends) and refines it too, to follow curved boundaries.
 
 --suggest (no generator needed): prints the next values and writes the
 geometry of each (from generator.geometry) to DIR/suggested/*.xyz; compute
@@ -41,6 +43,9 @@ def add_arguments(parser) -> None:
     parser.add_argument("--tolerance2", metavar="T2", type=float, default=None,
                         help="plane scans: target bracket width along the second coordinate, "
                              "in its unit (default: --tolerance)")
+    parser.add_argument("--subdivide", action="store_true",
+                        help="plane scans: also add a mid-line edge in each grid cell a "
+                             "boundary crosses, and refine it (one quadtree level)")
     parser.add_argument("--max-evaluations", metavar="N", type=int, default=None,
                         help="at most N new frames for the scan (counting earlier runs)")
     parser.add_argument("--jobs", "-j", metavar="P", type=int, default=1,

@@ -41,7 +41,8 @@ from trackscan.io.keycheck import KeyChecker
 from trackscan.settings import AnalysisSettings
 
 __all__ = ["ScanManifest2D", "FrameEntry2D", "load_manifest_2d", "read_frame_record_2d",
-           "record_generated_frame_2d", "generated_frame_name_2d", "DIMENSIONS"]
+           "record_generated_frame_2d", "generated_frame_name_2d", "read_added_edges_2d",
+           "record_added_edges_2d", "DIMENSIONS"]
 
 #: Number of scanned coordinates of a plane scan.
 DIMENSIONS = 2
@@ -90,6 +91,9 @@ class ScanManifest2D:
     generator_raw : dict or None
     frames_directory : Path
     description : str
+    added_edges : tuple of ((v1, v2), (v1, v2))
+        Edges refinement added inside grid cells (``--subdivide``), as
+        recorded in ``record.json``; their ends are recorded frames.
     """
 
     path: Path
@@ -102,6 +106,7 @@ class ScanManifest2D:
     generator_raw: dict | None = None
     frames_directory: Path | None = None
     description: str = ""
+    added_edges: tuple = ()
 
     dimensions = DIMENSIONS
 
@@ -117,6 +122,43 @@ def generated_frame_name_2d(values) -> str:
     return f"frame_{parts[0]}_{parts[1]}.cube"
 
 
+def _read_record(directory: Path) -> dict:
+    rec = Path(directory) / "record.json"
+    if not rec.exists():
+        return {"frames": []}
+    try:
+        data = json.loads(rec.read_text(encoding="utf-8"))
+        frames = data["frames"]
+        assert isinstance(frames, list)
+        for f in frames:
+            assert isinstance(f["file"], str) and len(f["values"]) == DIMENSIONS
+            assert all(isinstance(v, (int, float)) for v in f["values"])
+        for e in data.get("edges", []):
+            assert len(e) == 2 and all(len(p) == DIMENSIONS for p in e)
+    except (ValueError, KeyError, TypeError, AssertionError):
+        raise ParseError("broken record of generated frames (expected {\"frames\": "
+                         "[{\"file\", \"values\": [v1, v2]}, ...]})", rec) from None
+    return data
+
+
+def read_added_edges_2d(directory: Path) -> tuple:
+    """Edges that refinement added inside grid cells, from ``directory/record.json``."""
+    return tuple((tuple(float(v) for v in p), tuple(float(v) for v in q))
+                 for p, q in _read_record(directory).get("edges", []))
+
+
+def record_added_edges_2d(manifest, edges) -> Path:
+    """Add edges (pairs of points of the plane) to the record, atomically."""
+    folder = Path(manifest.frames_directory)
+    data = _read_record(folder)
+    known = {tuple(tuple(float(v) for v in p) for p in e) for e in data.get("edges", [])}
+    known |= {tuple(tuple(float(v) for v in p) for p in e) for e in edges}
+    data["edges"] = [[list(p), list(q)] for p, q in sorted(known)]
+    path = folder / "record.json"
+    write_text_atomic(path, json.dumps(data, indent=1, sort_keys=True) + "\n")
+    return path
+
+
 def read_frame_record_2d(directory: Path) -> list:
     """Frames a generator recorded in ``directory/record.json`` (plane scans).
 
@@ -126,20 +168,7 @@ def read_frame_record_2d(directory: Path) -> list:
         Each with ``file`` (relative to `directory`), ``values`` (two
         numbers) and optionally ``energy`` and ``refine``.
     """
-    rec = Path(directory) / "record.json"
-    if not rec.exists():
-        return []
-    try:
-        data = json.loads(rec.read_text(encoding="utf-8"))
-        frames = data["frames"]
-        assert isinstance(frames, list)
-        for f in frames:
-            assert isinstance(f["file"], str) and len(f["values"]) == DIMENSIONS
-            assert all(isinstance(v, (int, float)) for v in f["values"])
-    except (ValueError, KeyError, TypeError, AssertionError):
-        raise ParseError("broken record of generated frames (expected {\"frames\": "
-                         "[{\"file\", \"values\": [v1, v2]}, ...]})", rec) from None
-    return frames
+    return _read_record(directory)["frames"]
 
 
 def record_generated_frame_2d(manifest, entry: dict) -> Path:
@@ -158,13 +187,15 @@ def record_generated_frame_2d(manifest, entry: dict) -> Path:
         ``<frames_directory>/record.json``, rewritten atomically.
     """
     folder = Path(manifest.frames_directory)
-    frames = [f for f in read_frame_record_2d(folder) if f["file"] != entry["file"]]
+    data = _read_record(folder)
+    frames = [f for f in data["frames"] if f["file"] != entry["file"]]
     clean = {k: v for k, v in entry.items() if v is not None}
     clean["values"] = [float(v) for v in clean["values"]]
     frames.append(clean)
     frames.sort(key=lambda f: (tuple(float(v) for v in f["values"]), f["file"]))
+    data["frames"] = frames
     path = folder / "record.json"
-    write_text_atomic(path, json.dumps({"frames": frames}, indent=1, sort_keys=True) + "\n")
+    write_text_atomic(path, json.dumps(data, indent=1, sort_keys=True) + "\n")
     return path
 
 
@@ -347,4 +378,5 @@ def load_manifest_2d(data: dict, chk: KeyChecker, path: Path, lines: dict, *,
     return ScanManifest2D(path=path, name=name, coordinates=coords, frames=frames,
                           periodic=periodic, analysis=settings, generator=generator,
                           generator_raw=gen_raw, frames_directory=frames_dir,
-                          description=description)
+                          description=description,
+                          added_edges=read_added_edges_2d(frames_dir))

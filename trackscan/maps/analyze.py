@@ -231,10 +231,15 @@ def edge_frame(frame: PlaneFrame, axis: int) -> PlaneFrame:
     return dataclasses.replace(frame, value=float(frame.values[axis]))
 
 
-def boundary_edges(frames, values, numbers) -> list:
-    """Grid edges whose two ends have different structures."""
+def boundary_edges(frames, values, numbers, added=()) -> list:
+    """Edges (grid edges, then `added` ones) on which the structure is not the same throughout.
+
+    An edge qualifies when its two ends differ, or when a frame on it (made
+    by refinement, e.g. the end of an added edge) has another structure.
+    """
     refined = [f.refine is not None for f in frames]
-    return [e for e in plane_edges(values, refined) if numbers[e.a] != numbers[e.b]]
+    return [e for e in plane_edges(values, refined, added)
+            if len({numbers[k] for k in edge_frames(e, values)}) > 1]
 
 
 def _boundary(change, edge, on, values, numbers) -> Boundary:
@@ -266,7 +271,7 @@ def _unresolved_boundary(edge, values, numbers) -> Boundary:
 
 
 def plane_boundaries(frames, values, numbers, *, units, tracking=None, tolerance=None,
-                     gtol=None) -> list:
+                     gtol=None, added=()) -> list:
     """Every boundary of the plane: the changes along each boundary edge.
 
     `tolerance`: None, or the refine tolerances along the two coordinates.
@@ -275,7 +280,7 @@ def plane_boundaries(frames, values, numbers, *, units, tracking=None, tolerance
     a boundary with mechanism ``unresolved`` and a note.
     """
     out = []
-    for edge in boundary_edges(frames, values, numbers):
+    for edge in boundary_edges(frames, values, numbers, added):
         tol = None if tolerance is None else tolerance[edge.axis]
         on, _, changes = track_edge(frames, edge, values, tracking=tracking,
                                     unit=units[edge.axis], tolerance=tol, gtol=gtol)
@@ -319,7 +324,8 @@ def assemble_plane(manifest, frames, *, source: str, tracking=None, out_dir=None
               for k, (f, n) in enumerate(zip(frames, numbers))]
     units = [c.unit for c in manifest.coordinates]
     boundaries = plane_boundaries(frames, values, numbers, units=units, tracking=tracking,
-                                  tolerance=tolerance, gtol=manifest.analysis.gtol)
+                                  tolerance=tolerance, gtol=manifest.analysis.gtol,
+                                  added=getattr(manifest, "added_edges", ()))
     logger.info("%s: %d frames, %d structures, %d boundary points", manifest.name,
                 len(frames), len(table), len(boundaries))
     header = PlaneHeader(

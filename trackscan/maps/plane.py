@@ -30,7 +30,7 @@ class Edge:
         return 1 - self.axis
 
 
-def plane_edges(values, refined=None) -> list:
+def plane_edges(values, refined=None, added=()) -> list:
     """Edges between grid neighbours.
 
     Parameters
@@ -40,6 +40,9 @@ def plane_edges(values, refined=None) -> list:
     refined : sequence of bool, optional
         True for frames that refinement added; they lie on edges and make
         none of their own.
+    added : sequence of ((v1, v2), (v1, v2))
+        Edges refinement added inside grid cells; included (after the grid
+        edges) when frames sit at both ends.
 
     Returns
     -------
@@ -65,6 +68,15 @@ def plane_edges(values, refined=None) -> list:
             j = base.get(tuple(nxt))
             if j is not None:
                 edges.append(Edge(k, j, axis))
+    at = {tuple(v): k for k, v in enumerate(values)}
+    for p, q in added:
+        a, b = at.get(tuple(p)), at.get(tuple(q))
+        if a is None or b is None:
+            continue
+        axis = 0 if p[1] == q[1] else 1
+        if values[a][axis] > values[b][axis]:
+            a, b = b, a
+        edges.append(Edge(a, b, axis))
     return edges
 
 

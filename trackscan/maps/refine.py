@@ -29,10 +29,14 @@ from trackscan.maps.analyze import (
     REFINE_KEY, assemble_plane, boundary_edges, edge_frame, ensure_plane_frames,
     load_plane_frames, place_plane_frame, structure_labels,
 )
-from trackscan.maps.plane import along_value, edge_frames
+from trackscan.maps.plane import along_value, edge_frames, plane_edges
 from trackscan.progress import report
 
-__all__ = ["PlaneRefineResult", "refine_plane", "plane_tolerances"]
+__all__ = ["PlaneRefineResult", "refine_plane", "plane_tolerances", "new_cell_edges",
+           "round_point", "NEW_EDGE"]
+
+#: ``method`` of the refine record of a frame made as the end of an added edge.
+NEW_EDGE = "new-edge"
 
 logger = logging.getLogger(__name__)
 
@@ -49,6 +53,8 @@ class PlaneRefineResult:
         Frames made by refinement, earlier runs included.
     edges : int
         Boundary edges refined.
+    added_edges : int
+        Mid-line edges added inside grid cells by this run.
     converged : bool
         Every bracket on every boundary edge is at most its tolerance.
     message : str
@@ -60,6 +66,7 @@ class PlaneRefineResult:
     evaluations: int = 0
     total_evaluations: int = 0
     edges: int = 0
+    added_edges: int = 0
     converged: bool = True
     message: str = ""
     per_edge: list = field(default_factory=list)
@@ -70,8 +77,66 @@ def plane_tolerances(tolerance, tolerance2=None) -> tuple:
     return (float(tolerance), float(tolerance if tolerance2 is None else tolerance2))
 
 
+def round_point(values) -> tuple:
+    """A point of the plane with both values rounded as generated frames are named."""
+    from trackscan.model import round_value
+
+    return tuple(round_value(v) for v in values)
+
+
+def new_cell_edges(frames, values, numbers, added=()) -> list:
+    """Mid-line edges to add inside the grid cells that a boundary crosses.
+
+    A cell is four grid frames; a side is crossed when the structure is not
+    the same along it.  When a boundary crosses two opposite sides only, it
+    runs across the cell, and the mid-line parallel to those sides (which
+    must cut it) is added; when it crosses adjacent sides or more than two
+    (a corner, or lines meeting inside the cell), both mid-lines are added.
+
+    Returns
+    -------
+    list of (((v1, v2), (v1, v2)), (side, side))
+        Each new edge's two ends (rounded, low end first) and, per end, the
+        grid side it lies on as ``(end a, end b, axis)``; edges already in
+        `added` are left out.
+    """
+    refined = [f.refine is not None for f in frames]
+    grid = {v: k for k, v in enumerate(values) if not refined[k]}
+    axes = [sorted({v[0] for v in grid}), sorted({v[1] for v in grid})]
+    crossed = set()
+    for e in plane_edges(values, refined):
+        if len({numbers[k] for k in edge_frames(e, values)}) > 1:
+            crossed.add((values[e.a], values[e.b]))
+    known = {tuple(sorted((tuple(p), tuple(q)))) for p, q in added}
+    out = []
+    for x0, x1 in zip(axes[0], axes[0][1:]):
+        for y0, y1 in zip(axes[1], axes[1][1:]):
+            corners = [(x0, y0), (x1, y0), (x0, y1), (x1, y1)]
+            if any(c not in grid for c in corners):
+                continue
+            bottom, top = ((x0, y0), (x1, y0)) in crossed, ((x0, y1), (x1, y1)) in crossed
+            left, right = ((x0, y0), (x0, y1)) in crossed, ((x1, y0), (x1, y1)) in crossed
+            n = bottom + top + left + right
+            if n == 0:
+                continue
+            ym, xm = 0.5 * (y0 + y1), 0.5 * (x0 + x1)
+            horizontal = (round_point((x0, ym)), round_point((x1, ym))), (
+                ((x0, y0), (x0, y1), 1), ((x1, y0), (x1, y1), 1))
+            vertical = (round_point((xm, y0)), round_point((xm, y1))), (
+                ((x0, y0), (x1, y0), 0), ((x0, y1), (x1, y1), 0))
+            if bottom and top and n == 2:
+                lines = [horizontal]
+            elif left and right and n == 2:
+                lines = [vertical]
+            else:
+                lines = [horizontal, vertical]
+            out.extend(ln for ln in lines if tuple(sorted(ln[0])) not in known)
+    return out
+
+
 def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int | None = None,
-                 jobs: int = 1, out_dir=None, backend=None, generator=None, progress=None):
+                 jobs: int = 1, out_dir=None, backend=None, generator=None, progress=None,
+                 subdivide: bool = False):
     """Narrow the brackets of every boundary edge of a plane scan.
 
     Parameters
@@ -92,6 +157,10 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
     generator : Generator, optional
         Default: built from the manifest.
     progress : callable, optional
+    subdivide : bool
+        After the grid's boundary edges, add one mid-line edge in each grid
+        cell a boundary crosses (:func:`new_cell_edges`), compute its two
+        ends, and refine the new edges too (one quadtree level).
 
     Returns
     -------
@@ -109,7 +178,8 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
     """
     from trackscan.generators import make_generator
     from trackscan.io.manifest import load_manifest
-    from trackscan.io.manifest_2d import generated_frame_name_2d, record_generated_frame_2d
+    from trackscan.io.manifest_2d import (generated_frame_name_2d, record_added_edges_2d,
+                                          record_generated_frame_2d)
     from trackscan.refine.backends import LocalBackend
     from trackscan.refine.loop import check_options, refine_frames
     from trackscan.tracking import track_scan
@@ -129,66 +199,105 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
     cache_dir = None if out_dir is None else Path(out_dir) / ".cache"
     folder = Path(manifest.frames_directory)
     source = ensure_plane_frames(manifest, backend=backend, progress=progress)
-    manifest = load_manifest(manifest.path)
-    frames = load_plane_frames(manifest, backend=backend, cache_dir=cache_dir, progress=progress)
-    frames.sort(key=lambda f: tuple(f.values))
-    values = [tuple(f.values) for f in frames]
-    numbers, _ = structure_labels(frames)
-    edges = boundary_edges(frames, values, numbers)
     units = [c.unit for c in manifest.coordinates]
-    result = PlaneRefineResult(total_evaluations=sum(1 for f in frames if f.refine is not None))
+    result = PlaneRefineResult()
 
-    for n_edge, edge in enumerate(edges, start=1):
-        ends = [list(values[edge.a]), list(values[edge.b])]
-        on = edge_frames(edge, values)
-        line = [edge_frame(frames[k], edge.axis) for k in on]
-        done_here = sum(1 for f in line if f.refine is not None)
-        budget = None
-        if max_evaluations is not None:
-            budget = max(0, max_evaluations - result.total_evaluations) + done_here
+    def compute(points, metas):
+        """Generate, record and analyse frames at points of the plane (PlaneFrames)."""
+        tasks = [(pt, os.fspath(folder / generated_frame_name_2d(pt)), os.fspath(folder))
+                 for pt in points]
+        folder.mkdir(parents=True, exist_ok=True)
+        made = [None] * len(points)
+        errors = []
+        for i, out, exc in backend.generate(tasks, generator=generator, config=config,
+                                            coordinate=manifest.coordinates):
+            if exc is not None:
+                errors.append(exc)
+                continue
+            made[i] = out
+            record_generated_frame_2d(manifest, {"file": Path(tasks[i][1]).name,
+                                                 "values": list(points[i]),
+                                                 "energy": out.energy, REFINE_KEY: metas[i]})
+        if errors:
+            raise errors[0]      # the frames that finished are recorded
+        new = backend.analyse([t[1] for t in tasks], manifest.analysis,
+                              periodic=manifest.periodic, cache_dir=cache_dir)
+        return [place_plane_frame(manifest, f, t[1], pt, out.energy, {REFINE_KEY: meta})
+                for t, out, f, meta, pt in zip(tasks, made, new, metas, points)]
 
-        def evaluate(probes, edge=edge, ends=ends):
-            points = [along_value(edge, p.value, values) for p in probes]
-            tasks = [(pt, os.fspath(folder / generated_frame_name_2d(pt)), os.fspath(folder))
-                     for pt in points]
-            folder.mkdir(parents=True, exist_ok=True)
-            metas = [dict(p.meta, edge=ends, along=edge.axis) for p in probes]
-            made = [None] * len(probes)
-            errors = []
-            for i, out, exc in backend.generate(tasks, generator=generator, config=config,
-                                                coordinate=manifest.coordinates):
-                if exc is not None:
-                    errors.append(exc)
-                    continue
-                made[i] = out
-                record_generated_frame_2d(manifest, {"file": Path(tasks[i][1]).name,
-                                                     "values": list(points[i]),
-                                                     "energy": out.energy,
-                                                     REFINE_KEY: metas[i]})
-            if errors:
-                raise errors[0]
-            new = backend.analyse([t[1] for t in tasks], manifest.analysis,
-                                  periodic=manifest.periodic, cache_dir=cache_dir)
-            return [edge_frame(place_plane_frame(manifest, f, t[1], pt, out.energy,
-                                                 {REFINE_KEY: meta}), edge.axis)
-                    for t, out, f, meta, pt in zip(tasks, made, new, metas, points)]
+    def current():
+        m = load_manifest(manifest.path)
+        fr = sorted(load_plane_frames(m, backend=backend, cache_dir=cache_dir,
+                                      progress=progress), key=lambda f: tuple(f.values))
+        vals = [tuple(f.values) for f in fr]
+        nums, _ = structure_labels(fr)
+        return m, fr, vals, nums
 
-        def track(fr, axis=edge.axis):
-            return track_scan(fr, unit=units[axis])
+    def refine_edges(edges, frames, values):
+        for n_edge, edge in enumerate(edges, start=1):
+            ends = [list(values[edge.a]), list(values[edge.b])]
+            line = [edge_frame(frames[k], edge.axis) for k in edge_frames(edge, values)]
+            done_here = sum(1 for f in line if f.refine is not None)
+            budget = None
+            if max_evaluations is not None:
+                budget = max(0, max_evaluations - result.total_evaluations) + done_here
 
-        report(progress, "refine boundary edges", n_edge - 1, len(edges))
-        res = refine_frames(line, evaluate=evaluate, tolerance=tols[edge.axis],
-                            max_evaluations=budget, jobs=jobs, track=track,
-                            gtol=manifest.analysis.gtol, progress=progress)
-        result.evaluations += res.evaluations
-        result.total_evaluations += res.evaluations
-        result.edges += 1
-        result.converged = result.converged and res.converged
-        result.per_edge.append({"edge": ends, "along": edge.axis, "evaluations": res.evaluations,
-                                "converged": res.converged, "message": res.message})
-        logger.info("edge %s -> %s: %s (%d new frames)", ends[0], ends[1], res.message,
-                    res.evaluations)
-    report(progress, "refine boundary edges", len(edges), len(edges))
+            def evaluate(probes, edge=edge, ends=ends):
+                points = [along_value(edge, p.value, values) for p in probes]
+                metas = [dict(p.meta, edge=ends, along=edge.axis) for p in probes]
+                return [edge_frame(f, edge.axis) for f in compute(points, metas)]
+
+            def track(fr, axis=edge.axis):
+                return track_scan(fr, unit=units[axis])
+
+            report(progress, "refine boundary edges", n_edge - 1, len(edges))
+            res = refine_frames(line, evaluate=evaluate, tolerance=tols[edge.axis],
+                                max_evaluations=budget, jobs=jobs, track=track,
+                                gtol=manifest.analysis.gtol, progress=progress)
+            result.evaluations += res.evaluations
+            result.total_evaluations += res.evaluations
+            result.converged = result.converged and res.converged
+            result.per_edge.append({"edge": ends, "along": edge.axis,
+                                    "evaluations": res.evaluations,
+                                    "converged": res.converged, "message": res.message})
+            logger.info("edge %s -> %s: %s (%d new frames)", ends[0], ends[1], res.message,
+                        res.evaluations)
+        report(progress, "refine boundary edges", len(edges), len(edges))
+
+    m, frames, values, numbers = current()
+    result.total_evaluations = sum(1 for f in frames if f.refine is not None)
+    edges = boundary_edges(frames, values, numbers, m.added_edges)
+    refine_edges(edges, frames, values)
+    if subdivide:
+        m, frames, values, numbers = current()
+        lines = new_cell_edges(frames, values, numbers, m.added_edges)
+        if lines:
+            have = {round_point(v) for v in values}
+            last_round = max((int(f.refine.round or 0) for f in frames if f.refine is not None),
+                             default=0)
+            points, metas = [], []
+            for (p, q), side in lines:
+                for pt, (sa, sb, axis) in zip((p, q), side):
+                    if pt in have or pt in points:
+                        continue
+                    points.append(pt)
+                    metas.append({"round": last_round + 1, "method": NEW_EDGE,
+                                  "bracket": [sa[axis], sb[axis]], "edge": [list(sa), list(sb)],
+                                  "along": axis})
+            budget_left = (None if max_evaluations is None
+                           else max(0, max_evaluations - result.total_evaluations))
+            if budget_left is not None and len(points) > budget_left:
+                points, metas = points[:budget_left], metas[:budget_left]
+            if points:
+                compute(points, metas)
+                result.evaluations += len(points)
+                result.total_evaluations += len(points)
+            record_added_edges_2d(manifest, [pq for pq, _ in lines])
+            result.added_edges = len(lines)
+        m, frames, values, numbers = current()
+        edges = boundary_edges(frames, values, numbers, m.added_edges)
+        refine_edges(edges, frames, values)
+    result.edges = len(edges)
     result.message = (f"every boundary bracket is at most its tolerance ({len(edges)} edges)"
                       if result.converged else
                       "some boundary brackets are still wider than the tolerance")
@@ -197,7 +306,10 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
     summary = {"tolerance": list(tols), "max_evaluations": max_evaluations,
                "evaluations": result.total_evaluations, "boundary_edges": result.edges,
                "converged": result.converged, "message": result.message,
-               "strategy": "along boundary grid edges only (no new edges)"}
+               "added_edges": len(m.added_edges),
+               "strategy": ("along boundary edges, with one added mid-line edge in each grid "
+                            "cell a boundary crosses" if subdivide else
+                            "along boundary grid edges only (no new edges)")}
     scan = assemble_plane(final, frames, source=source, out_dir=out_dir, tolerance=tols,
                           refine_summary=summary)
     return scan, result
