@@ -492,8 +492,8 @@ class ProbeRecord(_Model):
     expected : str or None
         Which side the probe was expected to fall on.
     model_estimate, delta : float or None
-    label : str or None
-        The frame's stable label (``r1``, ``r2``, ... in order of computation).
+    tolerance : float or None
+        The refine tolerance the probe was made for.
     """
 
     round: int | None = _key("round")
@@ -502,6 +502,7 @@ class ProbeRecord(_Model):
     expected: str | None = _key("expected", mode=_OPTIONAL)
     model_estimate: float | None = _key("model_estimate", mode=_OPTIONAL)
     delta: float | None = _key("delta", mode=_OPTIONAL)
+    tolerance: float | None = _key("tolerance", mode=_OPTIONAL)
     extra: dict = _extra()
 
 
@@ -713,20 +714,33 @@ class Resolution(_Model):
 
 @dataclass(frozen=True, eq=False)
 class Uncertainty(_Model):
-    """The ± of a change's estimate, coordinate units.
+    """The ± to quote with a change's estimate, coordinate units.
 
     Attributes
     ----------
+    value : float or None
+        The ± a researcher quotes; never more than `half_width`.
+    source : str or None
+        What sets it: ``bracket`` (half the bracket: the frames alone),
+        ``model`` (the calibrated error of the fold extrapolation or the
+        conflict interpolation) or ``resolution`` (how far the grid's own
+        catastrophe can lie from the true one).
     half_width : float
         Half the bracket: the estimate cannot be further off than this.
     model_error : float or None
-        Error of the model estimate (fold extrapolation, conflict
-        interpolation), when there is one.
+        Calibrated error of the model estimate, when there is one.
+    resolution : float or None
+        The resolution term, converted into the coordinate.
     """
 
     half_width: float | None = _key("half_width")
     model_error: float | None = _key("model_error")
+    value: float | None = _key("value", mode=_OPTIONAL)
+    source: str | None = _key("source", mode=_OPTIONAL)
+    resolution: float | None = _key("resolution", mode=_OPTIONAL)
     extra: dict = _extra()
+
+    SOURCES = ("bracket", "model", "resolution")
 
 
 @dataclass(frozen=True, eq=False)
@@ -752,10 +766,18 @@ class Change(_Model):
     evaluations : int or None
         New frames refinement computed for this change.
     refine : dict or None
-        The refinement record (initial bracket, tolerance, fits).
+        The refinement record (initial bracket, tolerance, convergence),
+        only on changes refinement touched.
+    fit : dict or None
+        The model fit behind the estimate: ``indicator`` (``d2`` for a
+        fold, the signed path offset for a conflict), its estimate, error
+        parts and samples.
     note : str or None
     mechanism_candidate : str or None
         What the events point to when `mechanism` is ``unresolved``.
+    resolution_limited : bool or None
+        True when the frames next to the bracket are below what their grids
+        resolve (the mechanism is kept, read from the approach).
     """
 
     between: tuple = _key("between", default=dataclasses.MISSING)
@@ -770,8 +792,10 @@ class Change(_Model):
     uncertainty: Uncertainty | None = _key("uncertainty", kind=Uncertainty, mode=_OPTIONAL)
     evaluations: int | None = _key("evaluations", mode=_OPTIONAL)
     refine: dict | None = _key("refine", mode=_OPTIONAL)
+    fit: dict | None = _key("fit", mode=_OPTIONAL)
     note: str | None = _key("note", mode=_OPTIONAL)
     mechanism_candidate: str | None = _key("mechanism_candidate", mode=_OPTIONAL)
+    resolution_limited: bool | None = _key("resolution_limited", mode=_OPTIONAL)
     extra: dict = _extra()
 
     MECHANISMS = ("fold", "conflict", "mixed", "unresolved")

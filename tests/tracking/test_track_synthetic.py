@@ -181,7 +181,10 @@ def test_resolution_floor_depends_on_each_frames_grid():
     coarse[2]["grid"]["spacing_bohr"] = [0.2, 0.2, 0.2]
     (ch,) = track_scan(coarse)["changes"]
     assert ch["resolution"]["spacing_bohr"] == [0.2, 0.1]
-    assert not ch["resolution"]["resolved"] and ch["mechanism"] == "unresolved"
+    # below the floor the mechanism is kept (read from the approach) and the
+    # change says it is limited by the grid (issue 11)
+    assert not ch["resolution"]["resolved"] and ch["mechanism"] == "fold"
+    assert ch["resolution_limited"] is True
     assert "below the resolution floor" in ch["note"]
 
 
@@ -190,9 +193,9 @@ def test_printed_precision_limits_the_floor():
     for f in frames:
         f["grid"]["significant_digits"] = 3       # steps of 1e-4 at rho ~ 0.08
     (ch,) = track_scan(frames)["changes"]
-    assert ch["mechanism"] == "unresolved"
+    assert ch["mechanism"] == "fold" and ch["resolution_limited"] is True
     (ch,) = track_scan(frames, settings=TrackingSettings(printed_digits=3))["changes"]
-    assert ch["mechanism"] == "unresolved"
+    assert ch["mechanism"] == "fold" and ch["resolution_limited"] is True
 
 
 def test_returning_structure_reuses_its_number():
@@ -303,7 +306,7 @@ def test_open_bond_path_ends_do_not_break_tracking():
     assert not any(e["kind"] == "bond_switched" for c in r["changes"] for e in c["events"])
 
 
-def test_separation_floor_marks_too_close_pairs_unresolved():
+def test_separation_floor_marks_too_close_pairs_resolution_limited():
     # d = 0.01*sqrt(0.5) = 0.0071 bohr in frame 2, with a clear density difference
     frames = S.ring_opening_scan(c=0.01, kappa=1e5)
     (ch,) = track_scan(frames)["changes"]            # 0.1 bohr grid: floor 0.00125 bohr
@@ -314,7 +317,8 @@ def test_separation_floor_marks_too_close_pairs_unresolved():
     (pair,) = ch["resolution"]["pairs"]
     assert pair["separation_bohr"] < pair["separation_floor_bohr"]
     assert pair["rho_difference"] > pair["rho_floor"]
-    assert ch["mechanism"] == "unresolved" and "separation" in ch["note"]
+    assert ch["mechanism"] == "fold" and ch["resolution_limited"] is True
+    assert "separation" in ch["note"]
 
 
 def test_periodic_cp_wrapping_across_the_cell_face_keeps_its_track():

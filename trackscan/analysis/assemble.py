@@ -22,7 +22,8 @@ from pathlib import Path
 from trackscan import __version__
 from trackscan.model import SCHEMA, Coordinate, ProbeRecord, ScanHeader, ScanResult
 
-__all__ = ["place_frame", "place_frames", "assemble_scan", "recorded_frames"]
+__all__ = ["place_frame", "place_frames", "assemble_scan", "recorded_frames",
+           "refined_tolerance", "summarise_refinement"]
 
 logger = logging.getLogger(__name__)
 
@@ -121,7 +122,9 @@ def assemble_scan(manifest, frames, *, source: str, out_dir=None, tracking=None,
     tolerance : float, optional
         The refine tolerance, when a refinement ran (recorded per change).
     refine_summary : dict, optional
-        ``scan.refine``: what the refine run did.
+        ``scan.refine``.  Default: read off the frames refinement made
+        (:func:`summarise_refinement`), so analysing a refined scan again
+        keeps its refinement record; a scan never refined has none.
 
     Returns
     -------
@@ -132,8 +135,12 @@ def assemble_scan(manifest, frames, *, source: str, out_dir=None, tracking=None,
 
     tracking = tracking or getattr(manifest, "tracking", None)
     tracked = track_scan(frames, settings=tracking, unit=manifest.coordinate.unit)
+    if tolerance is None:
+        tolerance = refined_tolerance(tracked.frames)
     changes = annotate_changes(tracked.frames, tracked.changes, tolerance=tolerance,
                                gtol=manifest.analysis.gtol)
+    if refine_summary is None and tolerance is not None:
+        refine_summary = summarise_refinement(tracked.frames, changes, tolerance)
     logger.info("%s: %d frames, %d changes", manifest.name, len(tracked.frames), len(changes))
     header = ScanHeader(
         name=manifest.name,
@@ -153,3 +160,34 @@ def assemble_scan(manifest, frames, *, source: str, out_dir=None, tracking=None,
         schema=SCHEMA, scan=header, frames=tracked.frames, changes=changes,
         early_warnings=tracked.early_warnings, bond_tracks=tracked.bond_tracks,
         structures=tracked.structures, incomplete_frames=tracked.incomplete_frames)
+
+
+def refined_tolerance(frames):
+    """The tolerance of the latest refinement round among `frames`, or None."""
+    refined = [f.refine for f in frames if f.refine is not None and f.refine.tolerance is not None]
+    if not refined:
+        return None
+    latest = max(refined, key=lambda r: (r.round or 0, r.tolerance))
+    return float(latest.tolerance)
+
+
+def summarise_refinement(frames, changes, tolerance: float) -> dict:
+    """``scan.refine``: what refinement did, read off the frames and changes.
+
+    The same frames give the same summary, whether ``refine`` or a later
+    ``analyze`` writes it.
+    """
+    evaluations = sum(1 for f in frames if f.refine is not None)
+    infos = [c.refine or {} for c in changes]
+    converged = all(i.get("converged", True) for i in infos)
+    limits = [i["resolution_limit"] for i in infos if "resolution_limit" in i]
+    if not changes:
+        message = "no structural change to refine"
+    elif converged:
+        message = f"every bracket is at most {tolerance:g}"
+    elif limits and all(i.get("converged") or "resolution_limit" in i for i in infos):
+        message = f"limited by grid resolution: ±{max(limits):.2g}"
+    else:
+        message = f"brackets wider than {tolerance:g} remain"
+    return {"tolerance": float(tolerance), "evaluations": evaluations,
+            "converged": bool(converged), "message": message}

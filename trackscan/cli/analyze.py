@@ -13,6 +13,7 @@ dask.distributed scheduler instead of local processes.
 
 from __future__ import annotations
 
+import math
 import os
 import sys
 from pathlib import Path
@@ -40,6 +41,35 @@ def _bracket(ch, unit) -> str:
     return f"{a:.6g} → {b:.6g} {unit}".strip()
 
 
+def _estimate(ch, unit) -> str:
+    """``65.8609 ± 0.0047 °`` with the change's quoted uncertainty."""
+    if ch.estimate is None:
+        return ""
+    u = ch.uncertainty
+    if u is None or u.value is None:
+        return f"{ch.estimate:.6g} {unit}".strip()
+    digits = max(0, -math.floor(math.log10(u.value)) + 1) if u.value > 0 else 6
+    how = u.source if u.source == "bracket" else f"{u.source}: {ch.estimate_method}"
+    return f"{ch.estimate:.{digits}f} ± {u.value:.2g} {unit} ({how})".strip()
+
+
+def change_table(scan) -> list:
+    """The one table of changes that analyze, refine and demo print.
+
+    Columns: number, frames, bracket, estimate ± uncertainty (what sets the
+    ±), mechanism, events.
+    """
+    unit = scan.scan.coordinate.unit if scan.scan.coordinate is not None else ""
+    elements = list(scan.frames[0].elements) if scan.frames else []
+    rows = [("#", "frames", "bracket", "estimate", "mechanism", "events")]
+    for n, ch in enumerate(scan.changes, start=1):
+        mech = ch.mechanism + (" (resolution-limited)" if ch.resolution_limited else "")
+        rows.append((str(n), f"{ch.between[0]}–{ch.between[1]}", _bracket(ch, unit),
+                     _estimate(ch, unit), mech, describe_change(ch, elements)))
+    widths = [max(len(r[i]) for r in rows) for i in range(5)]
+    return ["  ".join(c.ljust(w) for c, w in zip(r[:5], widths)) + "  " + r[5] for r in rows]
+
+
 def summary_lines(scan) -> list:
     """The printed summary of a :class:`trackscan.model.ScanResult`, as lines."""
     frames = scan.frames
@@ -52,13 +82,7 @@ def summary_lines(scan) -> list:
     if not scan.changes:
         lines.append("no structural change inside the scan")
     else:
-        rows = [("#", "frames", "bracket", "mechanism", "events")]
-        for n, ch in enumerate(scan.changes, start=1):
-            rows.append((str(n), f"{ch.between[0]}–{ch.between[1]}", _bracket(ch, unit),
-                         ch.mechanism, describe_change(ch, elements)))
-        widths = [max(len(r[i]) for r in rows) for i in range(4)]
-        for r in rows:
-            lines.append("  ".join(c.ljust(w) for c, w in zip(r[:4], widths)) + "  " + r[4])
+        lines += change_table(scan)
         for n, ch in enumerate(scan.changes, start=1):
             if ch.note:
                 lines.append(f"note {n}: {ch.note}")

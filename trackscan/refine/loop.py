@@ -105,6 +105,9 @@ class RefineResult:
     rounds : int
     converged : bool
         Every change bracket is at most the tolerance.
+    limited : bool
+        The loop stopped because the brackets left open are below what the
+        grids resolve (``message`` gives the limit).
     message : str
         Why the loop stopped.
     """
@@ -115,6 +118,7 @@ class RefineResult:
     total_evaluations: int = 0
     rounds: int = 0
     converged: bool = False
+    limited: bool = False
     message: str = ""
     history: list = field(default_factory=list)
 
@@ -231,7 +235,7 @@ def propose_for_change(tracked_frames, ctx: ChangeContext, *, tolerance: float, 
 
 
 def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 1,
-               budget: int | None = None, gtol: float = DEFAULT_GTOL) -> list:
+               budget: int | None = None, gtol: float = DEFAULT_GTOL, skip=()) -> list:
     """The probes of one round of refinement.
 
     Parameters
@@ -249,6 +253,8 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
     gtol : float
         Gradient tolerance of the critical-point search (position errors of
         the fold samples).
+    skip : collection of tuple
+        Brackets of changes not to refine (limited by grid resolution).
 
     Returns
     -------
@@ -258,7 +264,7 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
     frames = tracked.frames
     existing = {round(float(f.value), DECIMALS) for f in frames}
     contexts = [change_context(frames, ch) for ch in tracked.changes]
-    open_ = [c for c in contexts if c.width > tolerance]
+    open_ = [c for c in contexts if c.width > tolerance and tuple(c.change.bracket) not in skip]
     if not open_:
         return []
     slots = allocate_slots([c.width / tolerance for c in open_], jobs)
@@ -275,7 +281,8 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
                 continue
             existing.add(v)
             meta = {"round": int(round_number), "method": prop.method,
-                    "bracket": [float(x) for x in ctx.change.bracket]}
+                    "bracket": [float(x) for x in ctx.change.bracket],
+                    "tolerance": float(tolerance)}
             if prop.method in MODEL_METHODS:
                 if prop.delta is not None:
                     meta["delta"] = float(prop.delta)
@@ -288,6 +295,20 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
     if budget is not None:
         probes = probes[:max(budget, 0)]
     return probes
+
+
+def _resolution_limits(tracked, *, tolerance: float, gtol: float) -> dict:
+    """Bracket -> grid-resolution limit of the open changes new frames cannot narrow."""
+    from trackscan.refine.estimates import annotate_changes, resolution_limit
+
+    out = {}
+    for ch in annotate_changes(tracked.frames, tracked.changes, gtol=gtol):
+        if ch.width <= tolerance:
+            continue
+        lim = resolution_limit(ch)
+        if lim is not None:
+            out[tuple(ch.bracket)] = lim
+    return out
 
 
 def check_options(*, tolerance, max_evaluations=None, jobs=1) -> None:
@@ -362,17 +383,27 @@ def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | 
     while True:
         budget = None if max_evaluations is None else max_evaluations - result.total_evaluations
         widths = [c.width for c in result.tracked.changes]
+        limits = _resolution_limits(result.tracked, tolerance=tolerance, gtol=gtol)
         if all(w <= tolerance for w in widths):
             result.converged = True
             result.message = ("no structural change to refine" if not widths else
                               f"every bracket is at most {tolerance:g}")
+            break
+        if all(w <= tolerance or tuple(c.bracket) in limits
+               for w, c in zip(widths, result.tracked.changes)):
+            worst = max(limits.values())
+            result.limited = True
+            result.message = (f"limited by grid resolution: ±{worst:.2g} (brackets the grids "
+                              f"resolve at best; --tolerance {tolerance:g} is met as far as "
+                              "they allow)")
             break
         if budget is not None and budget <= 0:
             result.message = f"evaluation budget of {max_evaluations} spent"
             break
         round_number += 1
         probes = plan_round(result.tracked, tolerance=tolerance, jobs=jobs,
-                            round_number=round_number, budget=budget, gtol=gtol)
+                            round_number=round_number, budget=budget, gtol=gtol,
+                            skip=set(limits))
         if not probes:
             result.message = "no new value can be proposed (brackets at the value resolution)"
             break

@@ -169,11 +169,10 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
     result = refine_frames(frames, evaluate=evaluate, tolerance=tolerance,
                            max_evaluations=max_evaluations, jobs=jobs, track=_track(manifest),
                            gtol=manifest.analysis.gtol, progress=progress)
-    summary = {"tolerance": float(tolerance), "max_evaluations": max_evaluations,
-               "evaluations": result.total_evaluations,
-               "converged": result.converged, "message": result.message}
+    # the summary is read off the frames (as a later analyze does), so the
+    # same frames give the same scan.json whichever command wrote it
     scan = assemble_scan(manifest, result.frames, source=source, out_dir=out_dir,
-                         tolerance=tolerance, refine_summary=summary)
+                         tolerance=tolerance)
     return scan, result
 
 

@@ -9,12 +9,14 @@ them into the events and mechanism of a change (DESIGN.md section 3):
   non-nuclear attractor + bond CP);
 * a conflict is a bond CP that survives while its path switches one end to
   another attractor;
-* ``mixed`` has both; ``unresolved`` is used when the grid cannot tell, and
-  the change then carries a ``note`` saying why: a frame fails
-  Poincaré–Hopf, a point is born or lost without a partner, a fold pair's
-  density difference lies below the frames' resolution floor
-  (:mod:`.resolution`), or a pair flickers in a single frame with a density
-  difference below ``significance`` times the floor (noise, not a change).
+* ``mixed`` has both; ``unresolved`` is used when the evidence does not
+  decide, and the change then carries a ``note`` saying why: a frame fails
+  Poincaré–Hopf, a point is born or lost without a partner, or a pair
+  flickers in a single frame with a density difference below
+  ``significance`` times the floor (noise, not a change).  A fold pair whose
+  density difference or separation lies below the frames' resolution floor
+  (:mod:`.resolution`) keeps its mechanism, read from the frames of the
+  approach, and the change is marked ``resolution_limited``.
 """
 
 from __future__ import annotations
@@ -342,8 +344,8 @@ def find_changes(views, tracks, matches, aligned, keys, graphs, structures, *, s
                          f"{worst['rho_difference']:.2g}, separation "
                          f"{worst['separation_bohr']:.2g} bohr) is below the resolution floor of "
                          f"frame {worst['frame']} (density {worst['rho_floor']:.2g}, separation "
-                         f"{worst['separation_floor_bohr']:.2g} bohr)")
-            mechanism = "unresolved"
+                         f"{worst['separation_floor_bohr']:.2g} bohr); the mechanism "
+                         "is read from the approach to the change")
         if st.noise:
             notes.extend(st.noise)
             mechanism = "unresolved"
@@ -363,6 +365,11 @@ def find_changes(views, tracks, matches, aligned, keys, graphs, structures, *, s
                                                               keys[k], keys[k + 1]),
             "resolution": resolution,
         }
+        if not resolution["resolved"]:
+            # below the floor the grid cannot see the last steps of the
+            # approach, but the pairing of the frames before still decides
+            # the mechanism: it is kept, and the change says it is limited
+            change["resolution_limited"] = True
         if mechanism != candidate:
             change["mechanism_candidate"] = candidate
         if notes:
