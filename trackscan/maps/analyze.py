@@ -255,7 +255,8 @@ def _boundary(change, edge, on, values, numbers) -> Boundary:
         estimate_method=change.estimate_method, evaluations=change.evaluations or 0,
         refine=change.refine, note=change.note,
         structure_type_changed=change.structure_type_changed,
-        mechanism_candidate=change.mechanism_candidate)
+        mechanism_candidate=change.mechanism_candidate, fit=change.fit,
+        resolution_limited=change.resolution_limited)
 
 
 def _unresolved_boundary(edge, values, numbers) -> Boundary:

@@ -75,8 +75,8 @@ class Boundary(_Model):
         The grid frames at the two ends of the edge.
     along : int
         0 when the first coordinate varies along the edge, 1 for the second.
-    estimate_method, evaluations, refine, note, structure_type_changed,
-    mechanism_candidate
+    estimate_method, evaluations, refine, fit, note, structure_type_changed,
+    mechanism_candidate, resolution_limited
         As on a 1-D change.
     """
 
@@ -95,6 +95,8 @@ class Boundary(_Model):
     note: str | None = _key("note", mode=_OPTIONAL)
     structure_type_changed: bool | None = _key("structure_type_changed", mode=_OPTIONAL)
     mechanism_candidate: str | None = _key("mechanism_candidate", mode=_OPTIONAL)
+    fit: dict | None = _key("fit", mode=_OPTIONAL)
+    resolution_limited: bool | None = _key("resolution_limited", mode=_OPTIONAL)
     extra: dict = _extra()
 
     def _check(self, path):

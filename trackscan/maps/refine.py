@@ -56,7 +56,10 @@ class PlaneRefineResult:
     added_edges : int
         Mid-line edges added inside grid cells by this run.
     converged : bool
-        Every bracket on every boundary edge is at most its tolerance.
+        Every bracket on every boundary edge is at most its tolerance (after
+        the last pass over them).
+    limited : bool
+        Some edge stopped where its grids cannot narrow a change further.
     message : str
     per_edge : list of dict
         ``edge`` (the two grid frames' values), ``along``, ``evaluations``,
@@ -68,6 +71,7 @@ class PlaneRefineResult:
     edges: int = 0
     added_edges: int = 0
     converged: bool = True
+    limited: bool = False
     message: str = ""
     per_edge: list = field(default_factory=list)
 
@@ -234,6 +238,8 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
         return m, fr, vals, nums
 
     def refine_edges(edges, frames, values):
+        # the state of the plane is that of the last pass over its boundary edges
+        result.converged, result.limited = True, False
         for n_edge, edge in enumerate(edges, start=1):
             ends = [list(values[edge.a]), list(values[edge.b])]
             line = [edge_frame(frames[k], edge.axis) for k in edge_frames(edge, values)]
@@ -257,6 +263,7 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
             result.evaluations += res.evaluations
             result.total_evaluations += res.evaluations
             result.converged = result.converged and res.converged
+            result.limited = result.limited or bool(getattr(res, "limited", False))
             result.per_edge.append({"edge": ends, "along": edge.axis,
                                     "evaluations": res.evaluations,
                                     "converged": res.converged, "message": res.message})
@@ -298,14 +305,20 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
         edges = boundary_edges(frames, values, numbers, m.added_edges)
         refine_edges(edges, frames, values)
     result.edges = len(edges)
-    result.message = (f"every boundary bracket is at most its tolerance ({len(edges)} edges)"
-                      if result.converged else
-                      "some boundary brackets are still wider than the tolerance")
+    if result.converged:
+        result.message = f"every boundary bracket is at most its tolerance ({len(edges)} edges)"
+    elif result.limited and all(e["converged"] or "resolution" in e["message"]
+                                for e in result.per_edge[-len(edges):]):
+        result.message = ("every boundary bracket is at most its tolerance or as narrow as "
+                          "the grids resolve")
+    else:
+        result.message = "some boundary brackets are still wider than the tolerance"
     final = load_manifest(manifest.path)
     frames = load_plane_frames(final, backend=backend, cache_dir=cache_dir)
     summary = {"tolerance": list(tols), "max_evaluations": max_evaluations,
                "evaluations": result.total_evaluations, "boundary_edges": result.edges,
-               "converged": result.converged, "message": result.message,
+               "converged": result.converged, "resolution_limited": result.limited,
+               "message": result.message,
                "added_edges": len(m.added_edges),
                "strategy": ("along boundary edges, with one added mid-line edge in each grid "
                             "cell a boundary crosses" if subdivide else
