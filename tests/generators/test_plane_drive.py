@@ -11,7 +11,7 @@ import pytest
 
 from trackscan.errors import GeneratorError
 from trackscan.generators import make_generator
-from trackscan.generators.config import parse_generator_config
+from trackscan.io.generator_config import parse_generator_config
 from trackscan.io.manifest import load_manifest
 
 XYZ = """4

@@ -9,6 +9,10 @@ cube file's content, the analysis settings and the trackscan version, so a
 rerun analyses only new or changed frames.  The same input gives the same
 scan.json, byte for byte.  --dask ADDRESS runs the frame analyses on a
 dask.distributed scheduler instead of local processes.
+
+One run at a time writes into DIR (and generates into a frames folder): a
+second run stops at once with one line (exit code 2).  trackscan replaces
+only files it wrote there (listed in DIR/.trackscan-output).
 """
 
 from __future__ import annotations
@@ -20,7 +24,7 @@ from pathlib import Path
 
 from trackscan.analysis import analyze_scan, write_scan
 from trackscan.io.manifest import load_manifest
-from trackscan.io.output import prepare_output_dir
+from trackscan.cli.outputs import output_folder
 from trackscan.progress import TextProgress
 from trackscan.tracking import describe_change
 
@@ -100,14 +104,18 @@ def summary_lines(scan) -> list:
 
 
 def run(args) -> int:
+    manifest = load_manifest(args.manifest)
+    with output_folder(args.out if args.out else Path("reports") / manifest.name) as out:
+        if getattr(manifest, "dimensions", 1) == 2:
+            from trackscan.cli.plane_scans import analyze_plane_command
+
+            return analyze_plane_command(args, manifest, out)
+        return _analyze(args, manifest, out)
+
+
+def _analyze(args, manifest, out) -> int:
     from trackscan.report import write_report
 
-    manifest = load_manifest(args.manifest)
-    if getattr(manifest, "dimensions", 1) == 2:
-        from trackscan.cli.plane_scans import analyze_plane_command
-
-        return analyze_plane_command(args, manifest)
-    out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
     progress = TextProgress()
     scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress,
                         dask=args.dask)

@@ -9,9 +9,6 @@ from __future__ import annotations
 
 import os
 import sys
-from pathlib import Path
-
-from trackscan.io.output import prepare_output_dir
 from trackscan.progress import TextProgress
 from trackscan.tracking import describe_change
 
@@ -61,11 +58,10 @@ def _write(scan, out, manifest, progress=None):
     return path, files
 
 
-def analyze_plane_command(args, manifest) -> int:
-    """``trackscan analyze`` on a plane manifest."""
+def analyze_plane_command(args, manifest, out) -> int:
+    """``trackscan analyze`` on a plane manifest, into the output folder `out`."""
     from trackscan.maps import analyze_plane
 
-    out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
     progress = TextProgress()
     scan = analyze_plane(manifest, out_dir=out, jobs=args.jobs, progress=progress,
                          dask=args.dask)
@@ -78,8 +74,8 @@ def analyze_plane_command(args, manifest) -> int:
     return 0
 
 
-def refine_plane_command(args, manifest) -> int:
-    """``trackscan refine`` on a plane manifest: along the boundary edges only."""
+def refine_plane_command(args, manifest, out) -> int:
+    """``trackscan refine`` on a plane manifest (into `out`): along the boundary edges only."""
     from trackscan.errors import InputError
     from trackscan.maps.refine import refine_plane
     from trackscan.refine.backends import make_backend
@@ -87,7 +83,6 @@ def refine_plane_command(args, manifest) -> int:
     if args.suggest:
         raise InputError("--suggest is not available for plane scans yet; add a generator",
                          manifest.path)
-    out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
     backend = make_backend(jobs=args.jobs, dask=args.dask)
     progress = TextProgress()
     try:

@@ -24,6 +24,12 @@ each bracket to at most --tolerance along the first coordinate and
 geometry of each (from generator.geometry) to DIR/suggested/*.xyz; compute
 the densities in your own program, add the cubes to the scan's frames, and
 run it again.
+
+An interrupted refine (an error, SIGINT, SIGTERM, even SIGKILL) repeats no
+finished calculation when rerun: frames are entered in the record before
+they start and settled on the next start.  One run at a time writes into
+DIR and generates into the frames folder; a second stops with one line
+(exit code 2).
 """
 
 from __future__ import annotations
@@ -66,17 +72,21 @@ def _backend(args):
 
 
 def run(args) -> int:
+    from trackscan.cli.outputs import output_folder
+
+    manifest = load_manifest(args.manifest)
+    with output_folder(args.out if args.out else Path("reports") / manifest.name) as out:
+        if getattr(manifest, "dimensions", 1) == 2:
+            from trackscan.cli.plane_scans import refine_plane_command
+
+            return refine_plane_command(args, manifest, out)
+        return _refine(args, manifest, out)
+
+
+def _refine(args, manifest, out) -> int:
     from trackscan.analysis import write_scan
     from trackscan.refine.scan import refine_manifest, suggest_values
 
-    from trackscan.io.output import prepare_output_dir
-
-    manifest = load_manifest(args.manifest)
-    if getattr(manifest, "dimensions", 1) == 2:
-        from trackscan.cli.plane_scans import refine_plane_command
-
-        return refine_plane_command(args, manifest)
-    out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
     backend = _backend(args)
     try:
         if args.suggest:

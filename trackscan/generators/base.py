@@ -19,11 +19,45 @@ import os
 from dataclasses import dataclass
 from pathlib import Path
 
-from trackscan.errors import GeneratorError
+from trackscan.errors import GeneratorError, InputError
+from trackscan.io.cube import DEFAULT_MAX_POINTS
 from trackscan.io.xyz import XYZFrame, write_xyz
 
-__all__ = ["Generator", "GeneratedFrame", "GeometryOnly", "sibling", "coordinate_value",
-           "format_value"]
+__all__ = ["Generator", "GeneratedFrame", "GeometryOnly", "sibling", "check_grid_size",
+           "MAX_GENERATED_POINTS", "coordinate_value", "format_value"]
+
+MAX_GENERATED_POINTS = DEFAULT_MAX_POINTS
+"""Largest grid a generator builds (the cube reader's default ceiling)."""
+
+
+def check_grid_size(positions, *, spacing: float, margin: float, value: float, path) -> None:
+    """Refuse, before anything is allocated, a box around the atoms too large to sample.
+
+    The box is that of :func:`trackscan.promolecule.grid_box` (PySCF's cube
+    writer makes the same one, give or take a point per axis).  A typo in a
+    drive (a distance of 1.0e6 instead of 1.06) otherwise builds a grid of
+    gigabytes.
+
+    Raises
+    ------
+    InputError
+        Naming the value, the grid and the extent of the atoms.
+    """
+    import math
+
+    import numpy as np
+
+    pos = np.asarray(positions, dtype=np.float64).reshape(-1, 3)
+    extent = pos.max(axis=0) - pos.min(axis=0) if len(pos) else np.zeros(3)
+    if not np.all(np.isfinite(extent)):
+        raise InputError(f"value {format_value(value)}: the geometry is not finite", path)
+    shape = [int(math.ceil((e + 2.0 * margin) / spacing - 1e-9)) + 1 for e in extent]
+    n = math.prod(shape)
+    if n > MAX_GENERATED_POINTS:
+        raise InputError(f"value {format_value(value)}: the grid around the atoms would have "
+                         f"{'x'.join(map(str, shape))} = {n} points, more than the ceiling of "
+                         f"{MAX_GENERATED_POINTS} (the atoms span {float(extent.max()):.4g} bohr; "
+                         "is the value a typo?)", path)
 
 _CUBE_SUFFIXES = (".cube.gz", ".cube.bz2", ".cube.xz", ".cube", ".cub")
 
@@ -95,13 +129,16 @@ class Generator(abc.ABC):
     drive : CoordinateDrive or TrajectoryDrive, optional
         Source of geometries.
 
-    Attributes
-    ----------
-    is_model : bool
-        True for the built-in promolecular model (outputs must say so).
+    Notes
+    -----
+    A model density (the built-in promolecule) says so in the cube's first
+    comment line; the frame analysis reads that into the one model-density
+    flag, ``grid.density_model`` (:attr:`trackscan.model.Frame.is_model_density`).
     """
 
-    is_model = False
+    #: Subfolders of the work folder the generator writes besides the cube
+    #: (claimed as trackscan's in the frames folder before it runs).
+    scratch_folders = ()
 
     def __init__(self, drive=None):
         self.drive = drive
@@ -110,6 +147,13 @@ class Generator(abc.ABC):
     def has_geometry(self) -> bool:
         """True when :meth:`geometry` can give a geometry."""
         return self.drive is not None
+
+    def check(self) -> None:
+        """Raise :class:`~trackscan.errors.InputError` when the source cannot run at all.
+
+        (A missing or non-executable program.)  Called before any frame is
+        made, and by ``trackscan check``.
+        """
 
     @abc.abstractmethod
     def describe(self) -> str:

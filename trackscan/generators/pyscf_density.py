@@ -33,8 +33,8 @@ import numpy as np
 
 from trackscan.elements import symbol
 from trackscan.errors import ConfigError, GeneratorError, InputError
-from trackscan.generators.base import GeneratedFrame, Generator, sibling
-from trackscan.generators.config import PySCFConfig
+from trackscan.generators.base import GeneratedFrame, Generator, check_grid_size, sibling
+from trackscan.io.generator_config import PySCFConfig
 from trackscan.io.atomic import write_bytes_atomic
 from trackscan.io.cube import read_cube
 from trackscan.units import BOHR_IN_ANGSTROM
@@ -92,6 +92,9 @@ class PySCFGenerator(Generator):
         Unknown functional or basis, or a charge/spin the atoms cannot have
         (checked once, on the drive's first geometry).
     """
+
+    #: Subfolder of the frames folder this generator writes (its cache).
+    scratch_folders = ("pyscf-cache",)
 
     def __init__(self, drive, options: PySCFConfig = PySCFConfig(), *, manifest=None):
         _require()
@@ -206,6 +209,8 @@ class PySCFGenerator(Generator):
         cache = self.options.cache if self.options.cache is not None else workdir / "pyscf-cache"
         cache.mkdir(parents=True, exist_ok=True)
         geom = self.geometry(value)
+        check_grid_size(geom.positions, spacing=self.options.spacing, margin=self.options.margin,
+                        value=value, path=cube_path)
         xyz = sibling(cube_path, ".xyz")
         self.write_geometry(value, xyz)
         key = self.cache_key(geom)
@@ -238,7 +243,7 @@ class PySCFGenerator(Generator):
                      settings=json.dumps(self._settings(), sort_keys=True))
             write_bytes_atomic(npz, buf.getvalue())
         self._remember(value, dm)
-        tmp = cache / f".partial-{key}.cube"
+        tmp = cache / f".partial-{os.getpid()}-{key}.cube"
         try:
             density_dm = dm[0] + dm[1] if np.ndim(dm) == 3 else dm
             cubegen.density(mol, str(tmp), density_dm, resolution=self.options.spacing,
@@ -260,7 +265,7 @@ class PySCFGenerator(Generator):
 def _place(src: Path, dst: Path) -> None:
     """Put a copy (a hard link where possible) of `src` at `dst`, atomically."""
     dst.parent.mkdir(parents=True, exist_ok=True)
-    tmp = dst.with_name(f".partial-{dst.name}")
+    tmp = dst.with_name(f".partial-{os.getpid()}-{dst.name}")
     with contextlib.suppress(FileNotFoundError):
         tmp.unlink()
     try:

@@ -91,6 +91,8 @@ class ScanManifest2D:
     generator_raw : dict or None
     frames_directory : Path
     description : str
+    tracking : TrackingSettings or None
+        The ``tracking`` section (used along every edge).
     added_edges : tuple of ((v1, v2), (v1, v2))
         Edges refinement added inside grid cells (``--subdivide``), as
         recorded in ``record.json``; their ends are recorded frames.
@@ -107,6 +109,7 @@ class ScanManifest2D:
     frames_directory: Path | None = None
     description: str = ""
     added_edges: tuple = ()
+    tracking: object = None
 
     dimensions = DIMENSIONS
 
@@ -363,6 +366,15 @@ def load_manifest_2d(data: dict, chk: KeyChecker, path: Path, lines: dict, *,
         settings = AnalysisSettings.from_mapping(analysis_raw, path=path)
     except ConfigError as exc:
         raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
+    from trackscan.settings import TrackingSettings
+
+    tracking_raw = data.get("tracking") or {}
+    if not isinstance(tracking_raw, dict):
+        chk.fail("tracking", "expected a mapping of settings")
+    try:
+        tracking = TrackingSettings.from_mapping(tracking_raw, path=path)
+    except ConfigError as exc:
+        raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
     gen_raw = data.get("generator")
     generator = None
     if gen_raw is not None:
@@ -379,4 +391,4 @@ def load_manifest_2d(data: dict, chk: KeyChecker, path: Path, lines: dict, *,
                           periodic=periodic, analysis=settings, generator=generator,
                           generator_raw=gen_raw, frames_directory=frames_dir,
                           description=description,
-                          added_edges=read_added_edges_2d(frames_dir))
+                          added_edges=read_added_edges_2d(frames_dir), tracking=tracking)

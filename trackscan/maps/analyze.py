@@ -315,7 +315,7 @@ def assemble_plane(manifest, frames, *, source: str, tracking=None, out_dir=None
     -------
     PlaneScanResult
     """
-    tracking = tracking or TrackingSettings()
+    tracking = tracking or getattr(manifest, "tracking", None) or TrackingSettings()
     frames = sorted(frames, key=lambda f: tuple(f.values))
     values = [tuple(f.values) for f in frames]
     if len(set(values)) != len(values):

@@ -254,7 +254,7 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
                 return [edge_frame(f, edge.axis) for f in compute(points, metas)]
 
             def track(fr, axis=edge.axis):
-                return track_scan(fr, unit=units[axis])
+                return track_scan(fr, settings=manifest.tracking, unit=units[axis])
 
             report(progress, "refine boundary edges", n_edge - 1, len(edges))
             res = refine_frames(line, evaluate=evaluate, tolerance=tols[edge.axis],

@@ -19,7 +19,7 @@ a command that does not use ``{xyz}``)::
       pyscf: {method: HF, basis: 6-31g, charge: 0, spin: 0, spacing: 0.2, margin: 4.0}
       command: ["my-qc-wrapper", "--at", "{value}", "--geom", "{xyz}", "--out", "{cube}"]
                                        # (a plane scan: "{value1}" and "{value2}")
-      timeout: 600                     # seconds, for command only
+      timeout: 600                     # seconds per frame, command only (default 24 h)
 
 Paths resolve relative to the manifest.  Wrong keys and values raise
 :class:`~trackscan.errors.ConfigError` naming the key path, e.g.
@@ -33,6 +33,7 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
+from trackscan.units import UNITS_OF_KIND, canonical_unit
 from trackscan.coordinates import COORDINATE_KINDS
 from trackscan.io.keycheck import KeyChecker
 
@@ -114,12 +115,19 @@ class PySCFConfig:
     cache: Path | None = None
 
 
+#: Seconds an external program may run for one frame unless the manifest's
+#: ``generator.timeout`` says otherwise: long enough for any single-point
+#: density, short enough that a hung program does not hold a cluster slot
+#: (and the scan) for ever.
+DEFAULT_TIMEOUT = 24 * 3600.0
+
+
 @dataclass(frozen=True)
 class CommandConfig:
-    """An external program: argument template and optional timeout (s)."""
+    """An external program: argument template and timeout (s)."""
 
     args: tuple
-    timeout: float | None = None
+    timeout: float = DEFAULT_TIMEOUT
 
     @property
     def uses(self) -> frozenset:
@@ -171,8 +179,9 @@ def _drive(raw, chk: KeyChecker, key: str = "generator.geometry.drive") -> Drive
         move = tuple(sorted(set(m)))
     unit = None
     if "unit" in raw:
-        unit = chk.string(raw["unit"], f"{key}.unit").strip().lower()
-        allowed = ("angstrom", "bohr") if kind == "distance" else ("degree", "radian")
+        given = chk.string(raw["unit"], f"{key}.unit")
+        unit = canonical_unit(given)
+        allowed = UNITS_OF_KIND[kind]
         if unit not in allowed:
             chk.fail(f"{key}.unit", f"a {kind} is in {' or '.join(allowed)}, got {raw['unit']!r}")
     return DriveConfig(kind, tuple(atoms), move, unit)
@@ -278,7 +287,7 @@ def parse_generator_config(mapping, *, path=None) -> GeneratorConfig:
                                   "and/or a geometry")
         options = None
     elif source == "command":
-        timeout = None
+        timeout = DEFAULT_TIMEOUT
         if "timeout" in mapping and mapping["timeout"] is not None:
             timeout = chk.number(mapping["timeout"], "generator.timeout", positive=True)
         options = _command(mapping["command"], timeout, chk, geometry is not None)
