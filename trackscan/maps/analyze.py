@@ -85,10 +85,7 @@ def ensure_plane_frames(manifest, *, backend=None, progress=None) -> str:
         tasks = [(e.values, os.fspath(e.file), os.fspath(folder)) for e in missing]
         report(progress, "generate frames", 0, len(tasks))
         errors = []
-        for n, (i, out, exc) in enumerate(backend.generate(tasks, generator=gen,
-                                                           config=manifest.generator,
-                                                           coordinate=manifest.coordinates),
-                                          start=1):
+        for n, (i, out, exc) in enumerate(run_generator(backend, gen, tasks), start=1):
             if exc is not None:
                 errors.append(exc)
                 continue
@@ -99,6 +96,13 @@ def ensure_plane_frames(manifest, *, backend=None, progress=None) -> str:
         if errors:
             raise errors[0]
     return gen.describe() if gen is not None else "cube files"
+
+
+def run_generator(backend, generator, tasks) -> list:
+    """Generator calls on a backend: ``[(index, GeneratedFrame or None, exception or None)]``."""
+    done = []
+    backend.generate(generator, tasks, lambda i, out, exc: done.append((i, out, exc)))
+    return done
 
 
 def _recorded(manifest) -> dict:

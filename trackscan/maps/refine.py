@@ -26,7 +26,7 @@ from pathlib import Path
 
 from trackscan.errors import InputError
 from trackscan.maps.analyze import (
-    REFINE_KEY, assemble_plane, boundary_edges, edge_frame, ensure_plane_frames,
+    REFINE_KEY, assemble_plane, run_generator, boundary_edges, edge_frame, ensure_plane_frames,
     load_plane_frames, place_plane_frame, structure_labels,
 )
 from trackscan.maps.plane import along_value, edge_frames, plane_edges
@@ -196,9 +196,6 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
             raise InputError("refine needs a generator section to compute new frames",
                              manifest.path)
         generator = make_generator(manifest.generator, coordinate=manifest.coordinates)
-        config = manifest.generator
-    else:
-        config = None
     backend = backend or LocalBackend(jobs)
     cache_dir = None if out_dir is None else Path(out_dir) / ".cache"
     folder = Path(manifest.frames_directory)
@@ -213,8 +210,7 @@ def refine_plane(manifest, *, tolerance, tolerance2=None, max_evaluations: int |
         folder.mkdir(parents=True, exist_ok=True)
         made = [None] * len(points)
         errors = []
-        for i, out, exc in backend.generate(tasks, generator=generator, config=config,
-                                            coordinate=manifest.coordinates):
+        for i, out, exc in run_generator(backend, generator, tasks):
             if exc is not None:
                 errors.append(exc)
                 continue
