@@ -46,6 +46,11 @@ MANIFESTS = {
     "frame_with_nan.yaml": ("nan_value.cube:11: non-finite", None),
     "bad_setting.yaml": ("did you mean 'density_floor'", 3),
     "no_such_manifest.yaml": ("no such manifest file", None),
+    "plane_coordinates_one.yaml": ("coordinates: expected a list of two coordinates", 3),
+    "plane_value_not_pair.yaml": ("frames[0].value: expected two numbers [value1, value2]", 6),
+    "plane_grid_bad_value.yaml": ("frames.grid[1][1]: expected a finite number", 8),
+    "plane_one_drive.yaml": ("generator.geometry.drive: a plane scan drives two coordinates", 10),
+    "plane_coordinate_unit.yaml": ("coordinates[1].unit: required", 4),
     # issue 16: bounded YAML, validated numbers (checked before any key)
     "alias_bomb.yaml": ("f: YAML aliases expand to more than 200000 nodes", 6),
     "deep_nesting.yaml": ("YAML nested deeper than 64 levels", 2),
@@ -103,7 +108,7 @@ def test_corpus_is_large_enough():
 
 
 def test_every_corpus_file_is_mapped():
-    helpers = {"good_frame.cube", "other_atoms_frame.cube", "hydroxyl.xyz"}
+    helpers = {"good_frame.cube", "other_atoms_frame.cube", "hydroxyl.xyz", "plane_base.xyz"}
     mapped = {k.split("/")[0] for k in CUBES} | set(MANIFESTS)
     unmapped = sorted(p.name for p in BAD.iterdir() if p.name not in helpers | mapped)
     assert unmapped == []

@@ -84,3 +84,12 @@ def test_pyscf_demo_switches_partner(tmp_path):
     assert switched, scan["changes"]
     assert sorted(switched[0]["atoms_before"]) == [1, 4]
     assert sorted(switched[0]["atoms_after"]) == [2, 4]
+
+
+def test_plane_demo_manifest_loads():
+    m = load_manifest(SCANS / "h3-plane" / "scan.yaml")
+    values = {e.values for e in m.frames}       # (refine runs may have added frames)
+    assert m.dimensions == 2 and all(e.generated for e in m.frames)
+    assert {(d, a) for d in (0.75, 0.9, 1.05, 1.2, 1.35)
+            for a in (40.0, 50.0, 60.0, 70.0, 80.0)} <= values
+    assert [c.kind for c in m.coordinates] == ["distance", "angle"]

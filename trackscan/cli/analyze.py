@@ -106,6 +106,10 @@ def summary_lines(scan) -> list:
 def run(args) -> int:
     manifest = load_manifest(args.manifest)
     with output_folder(args.out if args.out else Path("reports") / manifest.name) as out:
+        if getattr(manifest, "dimensions", 1) == 2:
+            from trackscan.cli.plane_scans import analyze_plane_command
+
+            return analyze_plane_command(args, manifest, out)
         return _analyze(args, manifest, out)
 
 

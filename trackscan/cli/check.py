@@ -19,29 +19,36 @@ def add_arguments(parser) -> None:
     parser.add_argument("manifest", help="scan manifest (YAML)")
 
 
+def _values(entry) -> str:
+    """The frame's coordinate value, or a plane frame's two values."""
+    return " ".join(f"{v:12.6g}" for v in getattr(entry, "values", None) or (entry.value,))
+
+
 def run(args) -> int:
     manifest = load_manifest(args.manifest)
+    coords = getattr(manifest, "coordinates", None) or (manifest.coordinate,)
     if manifest.generator is not None:
         # the generator can run at all (e.g. its program exists and is executable)
         from trackscan.generators import make_generator
 
-        make_generator(manifest.generator, coordinate=manifest.coordinate).check()
-    coord = manifest.coordinate
+        make_generator(manifest.generator,
+                       coordinate=coords if len(coords) == 2 else coords[0]).check()
     print(f"scan {manifest.name}: {len(manifest.frames)} frames, "
-          f"coordinate {coord.label} ({coord.unit})")
+          + ("coordinate " if len(coords) == 1 else "coordinates ")
+          + " and ".join(f"{c.label} ({c.unit})" for c in coords))
     seen = []
     missing = 0
     progress = TextProgress()
     for i, entry in enumerate(manifest.frames):
         if entry.generated and not entry.file.exists():
             missing += 1
-            print(f"  [{i:3d}] {entry.value:12.6g}  (to be generated: {entry.file.name})")
+            print(f"  [{i:3d}] {_values(entry)}  (to be generated: {entry.file.name})")
             continue
         grid = read_cube(entry.file, max_points=manifest.analysis.max_points)
         seen.append((entry.file, grid.numbers))
         check_same_atoms([seen[0], seen[-1]])
         shape = "x".join(map(str, grid.shape))
-        print(f"  [{i:3d}] {entry.value:12.6g}  {entry.file.name:30s} {shape:>13s}  "
+        print(f"  [{i:3d}] {_values(entry)}  {entry.file.name:30s} {shape:>13s}  "
               f"{grid.integral():9.4f} e")
         report(progress, "read frames", i + 1, len(manifest.frames), entry.file.name)
     progress.close()

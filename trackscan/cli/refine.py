@@ -14,6 +14,12 @@ interruption and it continues without repeating a calculation.
 (P+1)-section of one); --dask ADDRESS sends the generator calls and the
 frame analyses to a dask.distributed scheduler instead (extra 'dask').
 
+A plane scan (two coordinates) is refined along its boundary edges only:
+each bracket to at most --tolerance along the first coordinate and
+--tolerance2 (default --tolerance) along the second, in their units;
+--subdivide adds one mid-line edge inside each grid cell a boundary crosses
+(computing its two ends) and refines it too, to follow curved boundaries.
+
 --suggest (no generator needed): prints the next values and writes the
 geometry of each (from generator.geometry) to DIR/suggested/*.xyz; compute
 the densities in your own program, add the cubes to the scan's frames, and
@@ -41,6 +47,12 @@ def add_arguments(parser) -> None:
     parser.add_argument("manifest", help="scan manifest (YAML)")
     parser.add_argument("--tolerance", "-t", metavar="T", type=float, required=True,
                         help="target bracket width, in the coordinate's unit")
+    parser.add_argument("--tolerance2", metavar="T2", type=float, default=None,
+                        help="plane scans: target bracket width along the second coordinate, "
+                             "in its unit (default: --tolerance)")
+    parser.add_argument("--subdivide", action="store_true",
+                        help="plane scans: also add a mid-line edge in each grid cell a "
+                             "boundary crosses, and refine it (one quadtree level)")
     parser.add_argument("--max-evaluations", metavar="N", type=int, default=None,
                         help="at most N new frames for the scan (counting earlier runs)")
     parser.add_argument("--jobs", "-j", metavar="P", type=int, default=1,
@@ -64,6 +76,10 @@ def run(args) -> int:
 
     manifest = load_manifest(args.manifest)
     with output_folder(args.out if args.out else Path("reports") / manifest.name) as out:
+        if getattr(manifest, "dimensions", 1) == 2:
+            from trackscan.cli.plane_scans import refine_plane_command
+
+            return refine_plane_command(args, manifest, out)
         return _refine(args, manifest, out)
 
 

@@ -56,6 +56,8 @@ def make_drive(geometry: GeometryConfig, *, coordinate=None, manifest=None):
     ------
     ParseError, ConfigError, ConsistencyError
     """
+    if geometry.xyz is not None and isinstance(geometry.drive, tuple):
+        return _plane_drive(geometry, coordinate, manifest)
     if geometry.xyz is not None:
         d = geometry.drive
         base = read_xyz(geometry.xyz)[0]
@@ -79,6 +81,28 @@ def make_drive(geometry: GeometryConfig, *, coordinate=None, manifest=None):
                 v = _measured(fr, geometry, coordinate, manifest, k)
             values.append(v)
     return TrajectoryDrive(frames, values, source=str(geometry.trajectory))
+
+
+def _plane_drive(geometry, coordinates, manifest):
+    """The two-coordinate drive of a plane scan (`coordinates`: the manifest's pair)."""
+    from trackscan.generators.geometry import PlaneDrive
+
+    if coordinates is not None and not isinstance(coordinates, tuple):
+        raise ConfigError("a list of two drives belongs to a plane scan (coordinates: with two "
+                          "entries), not to a scan of one coordinate", manifest,
+                          "generator.geometry.drive")
+    base = read_xyz(geometry.xyz)[0]
+    drives = []
+    for i, d in enumerate(geometry.drive):
+        coord = coordinates[i] if coordinates is not None else None
+        unit = d.unit or _coordinate_unit(d.kind, coord)
+        try:
+            drives.append(CoordinateDrive(base, d.kind, d.atoms, move=d.move, unit=unit))
+        except ConfigError as exc:
+            key = (exc.key or "generator.geometry.drive").replace(
+                "generator.geometry.drive", f"generator.geometry.drive[{i}]", 1)
+            raise ConfigError(exc.message, manifest, key) from None
+    return PlaneDrive(*drives)
 
 
 def _measured(frame, geometry, coordinate, manifest, k):

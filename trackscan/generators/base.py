@@ -24,7 +24,7 @@ from trackscan.io.cube import DEFAULT_MAX_POINTS
 from trackscan.io.xyz import XYZFrame, write_xyz
 
 __all__ = ["Generator", "GeneratedFrame", "GeometryOnly", "sibling", "check_grid_size",
-           "MAX_GENERATED_POINTS"]
+           "MAX_GENERATED_POINTS", "coordinate_value", "format_value"]
 
 MAX_GENERATED_POINTS = DEFAULT_MAX_POINTS
 """Largest grid a generator builds (the cube reader's default ceiling)."""
@@ -50,11 +50,11 @@ def check_grid_size(positions, *, spacing: float, margin: float, value: float, p
     pos = np.asarray(positions, dtype=np.float64).reshape(-1, 3)
     extent = pos.max(axis=0) - pos.min(axis=0) if len(pos) else np.zeros(3)
     if not np.all(np.isfinite(extent)):
-        raise InputError(f"value {value:g}: the geometry is not finite", path)
+        raise InputError(f"value {format_value(value)}: the geometry is not finite", path)
     shape = [int(math.ceil((e + 2.0 * margin) / spacing - 1e-9)) + 1 for e in extent]
     n = math.prod(shape)
     if n > MAX_GENERATED_POINTS:
-        raise InputError(f"value {value:g}: the grid around the atoms would have "
+        raise InputError(f"value {format_value(value)}: the grid around the atoms would have "
                          f"{'x'.join(map(str, shape))} = {n} points, more than the ceiling of "
                          f"{MAX_GENERATED_POINTS} (the atoms span {float(extent.max()):.4g} bohr; "
                          "is the value a typo?)", path)
@@ -74,6 +74,20 @@ def sibling(cube_path, suffix: str) -> Path:
             name = name[: -len(s)]
             break
     return p.with_name(name + suffix)
+
+
+def coordinate_value(value):
+    """A coordinate value as stored: a float, or a tuple of two for a plane scan."""
+    if isinstance(value, (tuple, list)):
+        return tuple(float(v) for v in value)
+    return float(value)
+
+
+def format_value(value) -> str:
+    """A coordinate value (or a plane scan's pair) for messages: ``1.5`` or ``(1.5, 60)``."""
+    if isinstance(value, (tuple, list)):
+        return "(" + ", ".join(f"{float(v):g}" for v in value) + ")"
+    return f"{float(value):g}"
 
 
 @dataclass(frozen=True)

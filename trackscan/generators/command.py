@@ -4,7 +4,8 @@ The manifest gives an argument list with placeholders::
 
     command: ["my-qc-wrapper", "--at", "{value}", "--geom", "{xyz}", "--out", "{cube}"]
 
-``{value}`` is the coordinate value, ``{xyz}`` a geometry file trackscan
+``{value}`` is the coordinate value (a plane scan gives ``{value1}`` and
+``{value2}`` instead), ``{xyz}`` a geometry file trackscan
 writes beside the frame (needs ``generator.geometry``), ``{cube}`` where the
 program must write the density, ``{workdir}`` the frame's folder (for
 scratch files).  The program runs in the manifest's folder, so relative
@@ -45,7 +46,8 @@ from pathlib import Path
 import numpy as np
 
 from trackscan.errors import ConfigError, GeneratorError, InputError
-from trackscan.generators.base import GeneratedFrame, Generator, sibling
+from trackscan.generators.base import (GeneratedFrame, Generator, coordinate_value,
+                                       format_value, sibling)
 from trackscan.io.generator_config import CommandConfig
 from trackscan.io.cube import read_cube
 
@@ -53,7 +55,7 @@ __all__ = ["CommandGenerator"]
 
 logger = logging.getLogger(__name__)
 
-_PLACEHOLDER_RE = re.compile(r"\{(value|xyz|cube|workdir)\}")
+_PLACEHOLDER_RE = re.compile(r"\{(value1|value2|value|xyz|cube|workdir)\}")
 _TAIL = 400
 #: Prefix of the partial cube and log (with the process id: unique per process).
 PARTIAL_PREFIX = ".partial-"
@@ -63,6 +65,13 @@ PARTIAL_PREFIX = ".partial-"
 STOP_GRACE = 5.0
 #: The watchdog script (run with this Python, isolated mode).
 WATCHDOG = Path(__file__).with_name("watchdog.py")
+
+
+def value_placeholders(value) -> dict:
+    """Placeholder texts of a coordinate value: ``{value}``, or ``{value1}`` and ``{value2}``."""
+    if isinstance(value, (tuple, list)):
+        return {f"value{i}": repr(float(v)) for i, v in enumerate(value, start=1)}
+    return {"value": repr(float(value))}
 
 
 def _last_line(log: Path, start: int) -> str:
@@ -187,11 +196,19 @@ class CommandGenerator(Generator):
         tmp = cube_path.with_name(f"{PARTIAL_PREFIX}{os.getpid()}-{cube_path.name}")
         log = sibling(cube_path, ".log")
         self._discard(tmp)
-        subs = {"value": repr(float(value)), "cube": str(tmp), "workdir": str(workdir),
+        subs = {"cube": str(tmp), "workdir": str(workdir),
                 "xyz": str(xyz) if xyz is not None else ""}
+        subs.update(value_placeholders(value))
+        where = f"at coordinate value {format_value(value)}"
+        missing = sorted(self.options.uses - set(subs))
+        if missing:
+            raise GeneratorError(f"the command uses {{{missing[0]}}}, which a "
+                                 f"{'plane' if isinstance(value, tuple) else 'one-coordinate'} "
+                                 f"scan does not give ({where}): use "
+                                 + ("{value1} and {value2}" if isinstance(value, tuple)
+                                    else "{value}"))
         args = [_PLACEHOLDER_RE.sub(lambda m: subs[m.group(1)], a) for a in self.options.args]
         args[0] = self._program()
-        where = f"at coordinate value {value:g}"
         name = Path(args[0]).name
         timeout = self.options.timeout
         logger.info("running %s", args)
@@ -244,10 +261,10 @@ class CommandGenerator(Generator):
         if geom is not None:
             dev = float(np.max(np.linalg.norm(grid.positions - geom.positions, axis=1)))
             if dev > 1e-3:
-                logger.warning("cube at %g: nuclei are up to %.3g bohr away from the "
-                               "geometry given in %s", value, dev, xyz)
+                logger.warning("cube at %s: nuclei are up to %.3g bohr away from the "
+                               "geometry given in %s", format_value(value), dev, xyz)
         os.replace(tmp, cube_path)
-        return GeneratedFrame(cube_path, float(value), None, False, xyz, log)
+        return GeneratedFrame(cube_path, coordinate_value(value), None, False, xyz, log)
 
     @staticmethod
     def _discard(tmp: Path) -> None:

@@ -25,6 +25,7 @@ References
 
 from __future__ import annotations
 
+import copy
 import math
 import re
 
@@ -39,7 +40,7 @@ from trackscan.units import ANGSTROM_IN_BOHR, angle_factor, length_factor
 
 __all__ = ["COVALENT_RADII", "connectivity", "moving_fragment", "CoordinateDrive",
            "TrajectoryDrive", "kabsch_align", "value_from_comment", "to_internal_unit",
-           "from_internal_unit"]
+           "from_internal_unit", "PlaneDrive"]
 
 #: Covalent radii (angstrom) of Cordero et al. (2008) [from memory], Z = 1-36
 #: (sp3 carbon; low-spin values for Mn, Fe, Co).  Other elements use 1.5.
@@ -295,6 +296,70 @@ class CoordinateDrive:
             pos[idx] = _rotate(pos[idx], pos[a[2]], axis, delta)
         comment = f"value={value!r} {self.kind} {'-'.join(map(str, self.atoms))}"
         return XYZFrame(self.base.numbers, pos, comment)
+
+
+#: Largest change (in the first drive's unit) that setting the second
+#: coordinate may make to the first before the two drives count as coupled.
+PLANE_DRIVE_TOLERANCE = 1e-6
+
+
+class PlaneDrive:
+    """A base geometry with two internal coordinates driven at once (a plane scan).
+
+    Parameters
+    ----------
+    first, second : CoordinateDrive
+        One drive per scanned coordinate, on the same base geometry, each
+        with its own moving fragment.
+
+    Notes
+    -----
+    ``geometry((v1, v2))`` sets the first coordinate with the first drive,
+    then the second with the second.  When moving the second fragment
+    changes the first coordinate (the fragments or the coordinates' atoms
+    overlap), the drives are coupled and the geometry is refused: give
+    ``move:`` lists that keep the two apart.
+    """
+
+    def __init__(self, first: CoordinateDrive, second: CoordinateDrive):
+        if first.base is not second.base and (
+                np.any(first.base.numbers != second.base.numbers)
+                or not np.allclose(first.base.positions, second.base.positions)):
+            raise ValueError("both drives of a plane must start from the same geometry")
+        self.drives = (first, second)
+        self.base = first.base
+        self.start_value = (first.start_value, second.start_value)
+
+    def measure(self, positions) -> tuple:
+        """Both driven coordinates on `positions` (bohr), each in its drive's unit."""
+        return tuple(d.measure(positions) for d in self.drives)
+
+    def describe(self) -> str:
+        """One line for reports."""
+        return " and ".join(d.describe() for d in self.drives)
+
+    def geometry(self, values) -> XYZFrame:
+        """Geometry with the two coordinates set to `values` (each in its drive's unit).
+
+        Raises
+        ------
+        GeneratorError
+            For a value out of range, or when the two drives are coupled.
+        """
+        v1, v2 = (float(v) for v in values)
+        first, second = self.drives
+        step = first.geometry(v1)
+        moved = copy.copy(second)      # same atoms and moving fragment, from the new geometry
+        moved.base = step
+        pos = moved.geometry(v2).positions
+        got = first.measure(pos)
+        if abs(got - v1) > PLANE_DRIVE_TOLERANCE * max(1.0, abs(v1)):
+            raise GeneratorError(
+                f"the two drives are coupled: setting the {second.kind} "
+                f"{'-'.join(map(str, second.atoms))} to {v2:g} moves the {first.kind} "
+                f"{'-'.join(map(str, first.atoms))} from {v1:g} to {got:g}; give move: lists "
+                "that keep the two moving fragments apart")
+        return XYZFrame(self.base.numbers, pos, f"value1={v1!r} value2={v2!r}")
 
 
 _VALUE_RE = re.compile(r"(?:^|[\s,;])value\s*[=:]\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)",

@@ -5,7 +5,8 @@ from __future__ import annotations
 import logging
 from pathlib import Path
 
-from trackscan.generators.base import GeneratedFrame, Generator, check_grid_size, sibling
+from trackscan.generators.base import (GeneratedFrame, Generator, check_grid_size,
+                                       coordinate_value, format_value, sibling)
 from trackscan.io.generator_config import PromoleculeConfig
 from trackscan.io.cube import write_cube
 from trackscan.promolecule import MODEL_LABEL, promolecule_grid
@@ -50,5 +51,6 @@ class PromoleculeGenerator(Generator):
         xyz = sibling(cube_path, ".xyz")
         self.write_geometry(value, xyz)
         write_cube(cube_path, grid, comments=(MODEL_LABEL, f"trackscan value={value!r}"))
-        logger.info("promolecule cube at %g: %s (%d points)", value, cube_path, grid.values.size)
-        return GeneratedFrame(cube_path, float(value), None, False, xyz)
+        logger.info("promolecule cube at %s: %s (%d points)", format_value(value), cube_path,
+                    grid.values.size)
+        return GeneratedFrame(cube_path, coordinate_value(value), None, False, xyz)

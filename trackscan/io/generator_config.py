@@ -8,7 +8,9 @@ a command that does not use ``{xyz}``)::
         xyz: start.xyz                 # base geometry (first frame of the file) ...
         drive: {distance: [1, 2]}      # ... with one driven coordinate
                                        #   (or angle: [i, j, k] / dihedral: [i, j, k, l];
-                                       #   optional move: [..] and unit: bohr|angstrom|degree|radian)
+                                       #   optional move: [..] and unit: bohr|angstrom|degree|radian;
+                                       #   a plane scan gives a list of two drives, one per
+                                       #   coordinate, each with its own move: [..])
         # or:  trajectory: relaxed-scan.xyz   (frames carry "value=..." comments,
         #      or give values: [..], or the coordinate's definition is measured)
       # one density source; with none, trackscan only writes geometries
@@ -16,6 +18,7 @@ a command that does not use ``{xyz}``)::
       promolecule: {spacing: 0.15, margin: 4.0}          # built-in model; bohr
       pyscf: {method: HF, basis: 6-31g, charge: 0, spin: 0, spacing: 0.2, margin: 4.0}
       command: ["my-qc-wrapper", "--at", "{value}", "--geom", "{xyz}", "--out", "{cube}"]
+                                       # (a plane scan: "{value1}" and "{value2}")
       timeout: 600                     # seconds per frame, command only (default 24 h)
 
 Paths resolve relative to the manifest.  Wrong keys and values raise
@@ -38,7 +41,10 @@ __all__ = ["GeneratorConfig", "GeometryConfig", "DriveConfig", "PromoleculeConfi
            "PySCFConfig", "CommandConfig", "parse_generator_config", "PLACEHOLDERS"]
 
 #: Placeholders a command template may use.
-PLACEHOLDERS = ("value", "xyz", "cube", "workdir")
+PLACEHOLDERS = ("value", "xyz", "cube", "workdir", "value1", "value2")
+
+#: Placeholders of the two coordinate values of a plane scan (in place of ``{value}``).
+PLANE_PLACEHOLDERS = ("value1", "value2")
 
 _TOP = ("geometry", "promolecule", "pyscf", "command", "timeout")
 _GEOMETRY = ("xyz", "drive", "trajectory", "values")
@@ -153,8 +159,7 @@ class GeneratorConfig:
     manifest: Path | None = None
 
 
-def _drive(raw, chk: KeyChecker) -> DriveConfig:
-    key = "generator.geometry.drive"
+def _drive(raw, chk: KeyChecker, key: str = "generator.geometry.drive") -> DriveConfig:
     chk.mapping(raw, key, _DRIVE)
     kinds = [k for k in COORDINATE_KINDS if k in raw]
     if len(kinds) != 1:
@@ -182,6 +187,17 @@ def _drive(raw, chk: KeyChecker) -> DriveConfig:
     return DriveConfig(kind, tuple(atoms), move, unit)
 
 
+def _drives(raw, chk: KeyChecker):
+    """One drive (a mapping), or a tuple of two (a list: a plane scan, one per coordinate)."""
+    key = "generator.geometry.drive"
+    if not isinstance(raw, list):
+        return _drive(raw, chk)
+    if len(raw) != 2:
+        chk.fail(key, f"a list of drives holds two (one per coordinate of a plane scan), "
+                      f"got {len(raw)}")
+    return tuple(_drive(d, chk, f"{key}[{i}]") for i, d in enumerate(raw))
+
+
 def _geometry(raw, chk: KeyChecker, base: Path) -> GeometryConfig:
     key = "generator.geometry"
     chk.mapping(raw, key, _GEOMETRY)
@@ -194,7 +210,7 @@ def _geometry(raw, chk: KeyChecker, base: Path) -> GeometryConfig:
         if "values" in raw:
             chk.fail(f"{key}.values", "values belong to a trajectory, not to a drive")
         return GeometryConfig(xyz=chk.file(raw["xyz"], f"{key}.xyz", base),
-                              drive=_drive(raw["drive"], chk))
+                              drive=_drives(raw["drive"], chk))
     traj = chk.file(raw["trajectory"], f"{key}.trajectory", base)
     drive = _drive(raw["drive"], chk) if "drive" in raw else None
     values = None

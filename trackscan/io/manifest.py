@@ -57,7 +57,7 @@ RECORD_NAME = "record.json"
 """File name of the record of generated frames, in the frames directory."""
 
 _TOP_KEYS = ("name", "description", "coordinate", "frames", "periodic", "analysis", "tracking",
-             "generator")
+             "generator", "coordinates")
 _COORD_KEYS = ("label", "unit") + tuple(COORDINATE_KINDS)
 _FRAME_KEYS = ("file", "value", "energy")
 _FRAMES_MAP_KEYS = ("glob", "values", "directory")
@@ -204,28 +204,28 @@ def _read_text(path: Path) -> str:
         raise InputError(f"cannot read the manifest ({exc.strerror})", path) from None
 
 
-def _coordinate(data, chk: KeyChecker) -> Coordinate:
-    chk.mapping(data, "coordinate", _COORD_KEYS)
+def _coordinate(data, chk: KeyChecker, key: str = "coordinate") -> Coordinate:
+    chk.mapping(data, key, _COORD_KEYS)
     kinds = [k for k in COORDINATE_KINDS if k in data]
     if len(kinds) > 1:
-        chk.fail("coordinate", f"give one measured definition, not {' and '.join(kinds)}")
+        chk.fail(key, f"give one measured definition, not {' and '.join(kinds)}")
     kind = kinds[0] if kinds else None
     atoms: tuple = ()
     if kind:
-        atoms = chk.atoms(data[kind], f"coordinate.{kind}", COORDINATE_KINDS[kind])
+        atoms = chk.atoms(data[kind], f"{key}.{kind}", COORDINATE_KINDS[kind])
     default_unit = {"distance": "angstrom", "angle": "degree", "dihedral": "degree"}.get(kind, "")
-    unit = chk.string(data["unit"], "coordinate.unit") if "unit" in data else default_unit
+    unit = chk.string(data["unit"], f"{key}.unit") if "unit" in data else default_unit
     if not unit:
-        chk.fail("coordinate.unit", "required when the coordinate has no measured definition")
+        chk.fail(f"{key}.unit", "required when the coordinate has no measured definition")
     if kind and canonical_unit(unit) not in UNITS_OF_KIND[kind]:
-        chk.fail("coordinate.unit", f"a measured {kind} is in "
-                                    f"{' or '.join(UNITS_OF_KIND[kind])}, got {unit!r}")
+        chk.fail(f"{key}.unit", f"a measured {kind} is in "
+                                f"{' or '.join(UNITS_OF_KIND[kind])}, got {unit!r}")
     if "label" in data:
-        label = chk.string(data["label"], "coordinate.label")
+        label = chk.string(data["label"], f"{key}.label")
     elif kind:
         label = f"{kind} " + "-".join(str(a) for a in atoms)
     else:
-        chk.fail("coordinate.label", "required when the coordinate has no measured definition")
+        chk.fail(f"{key}.label", "required when the coordinate has no measured definition")
     return Coordinate(label=label, unit=unit, kind=kind, atoms=atoms)
 
 
@@ -476,6 +476,10 @@ def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
     if not isinstance(data, dict):
         chk.fail("", "expected a mapping at the top level (name, coordinate, frames, ...)")
     chk.mapping(data, "", _TOP_KEYS)
+    if "coordinates" in data:
+        from trackscan.io.manifest_2d import load_manifest_2d
+
+        return load_manifest_2d(data, chk, path, lines, max_points=max_points)
     for required in ("name", "coordinate", "frames"):
         if required not in data:
             chk.fail(required, "missing (required)")

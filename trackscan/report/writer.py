@@ -77,6 +77,11 @@ def write_report(scan, out_dir, *, source_dir=None, date="today", progress=None)
     ``NAME.pdf``; the geometry at each change's estimate as
     ``geometry_changeK.xyz`` (Å).
     """
+    from trackscan.report.structure_map import plane_scan, write_plane_report
+
+    plane = plane_scan(scan)
+    if plane is not None:
+        return write_plane_report(plane, out_dir, date=date, progress=progress)
     data = load_scan(scan, source_dir=source_dir)
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
