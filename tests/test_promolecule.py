@@ -11,7 +11,7 @@ from trackscan.promolecule import (
 )
 
 
-@pytest.mark.parametrize("z", range(1, 19))
+@pytest.mark.parametrize("z", range(1, 87))
 def test_atom_integrates_to_z(z):
     # integral of 4 pi r^2 rho(r) by adaptive quadrature, independent of the
     # closed-form normalisation used in atom_terms
@@ -110,8 +110,10 @@ def test_kato_cusp_of_hydrogen_atom():
 
 
 def test_out_of_range_element_rejected():
-    with pytest.raises(ValueError, match="H-Ar"):
-        atom_terms(19)
+    with pytest.raises(ValueError, match="H-Rn"):
+        atom_terms(87)
+    with pytest.raises(ValueError, match="H-Rn"):
+        atom_terms(0)
     with pytest.raises(ValueError):
         Promolecule([1, 1], [[0, 0, 0]])
 

@@ -8,7 +8,7 @@ from pathlib import Path
 from trackscan.generators.base import GeneratedFrame, Generator, sibling
 from trackscan.generators.config import PromoleculeConfig
 from trackscan.io.cube import write_cube
-from trackscan.promolecule import MODEL_LABEL, promolecule_grid
+from trackscan.promolecule import model_label, promolecule_grid
 
 __all__ = ["PromoleculeGenerator"]
 
@@ -16,7 +16,7 @@ logger = logging.getLogger(__name__)
 
 
 class PromoleculeGenerator(Generator):
-    """Cubes of the Clementi–Raimondi promolecule at each geometry.
+    """Cubes of the free-atom promolecule (:mod:`trackscan.promolecule`) at each geometry.
 
     Parameters
     ----------
@@ -40,7 +40,9 @@ class PromoleculeGenerator(Generator):
         self.options = options
 
     def describe(self) -> str:
-        return f"{MODEL_LABEL}, cube spacing {self.options.spacing:g} bohr"
+        drive = self.drive
+        numbers = drive.base.numbers if hasattr(drive, "base") else drive.numbers
+        return f"{model_label(numbers)}, cube spacing {self.options.spacing:g} bohr"
 
     def generate(self, value: float, cube_path, workdir=None) -> GeneratedFrame:
         cube_path = Path(cube_path)
@@ -49,6 +51,6 @@ class PromoleculeGenerator(Generator):
                                 margin=self.options.margin, source=str(cube_path))
         xyz = sibling(cube_path, ".xyz")
         self.write_geometry(value, xyz)
-        write_cube(cube_path, grid, comments=(MODEL_LABEL, f"trackscan value={value!r}"))
+        write_cube(cube_path, grid, comments=(grid.comments[0], f"trackscan value={value!r}"))
         logger.info("promolecule cube at %g: %s (%d points)", value, cube_path, grid.values.size)
         return GeneratedFrame(cube_path, float(value), None, False, xyz)

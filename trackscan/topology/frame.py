@@ -160,7 +160,7 @@ def _without_nuclear_maxima(cps, maxima, tol):
 
 
 def _grid_info(grid):
-    from trackscan.promolecule import MODEL_LABEL
+    from trackscan.promolecule import HEAVY_LABEL, MODEL_LABEL
 
     comments = [str(c).strip() for c in grid.comments]
     info = {"shape": [int(n) for n in grid.shape], "origin_bohr": fix(grid.origin),
@@ -168,7 +168,8 @@ def _grid_info(grid):
             "periodic": bool(grid.periodic), "comments": comments}
     if comments and comments[0].startswith(MODEL_LABEL):
         # written by trackscan's promolecule generator: say so wherever it is shown
-        info["density_model"] = MODEL_LABEL
+        info["density_model"] = comments[0] if comments[0].startswith(HEAVY_LABEL) \
+            else MODEL_LABEL
     return info
 
 
