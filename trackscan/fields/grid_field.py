@@ -263,6 +263,28 @@ def _smooth_light_nuclei(grid, light, *, reach: float = 1.5, factor: float = 2.0
     return out
 
 
+_FILL_DIRECT_MAX = 2000
+"""Largest core fill (unknown samples) solved directly; larger ones (the
+cores of valence-only atoms) by conjugate gradients, which is 15 times
+faster at 8000 unknowns (0.25 s against 3.9 s for Pd at 0.1 bohr) and
+agrees to 3e-11 e/bohr^3."""
+
+_FILL_RTOL = 1e-12
+
+
+def _solve_large_fill(normal, rhs):
+    """Conjugate gradients (Jacobi preconditioned) on the fill's normal equations."""
+    from scipy import sparse
+    from scipy.sparse.linalg import cg, spsolve
+
+    x, info = cg(normal, rhs, rtol=_FILL_RTOL, maxiter=20 * normal.shape[0],
+                 M=sparse.diags(1.0 / normal.diagonal()))
+    if info != 0:
+        logger.info("core fill: conjugate gradients did not converge; solving directly")
+        x = spsolve(normal, rhs)
+    return x
+
+
 def _smooth_cores(values, grid, heavy, radius):
     """Replace the samples inside core spheres by the smoothest continuation of the rest.
 
@@ -320,6 +342,11 @@ def _smooth_cores(values, grid, heavy, radius):
              (np.tile(np.arange(m), 7), np.concatenate([centre] + [b.ravel() for b in nbrs]))),
             shape=(m, y.size))
         lu, lk = lap[:, inner], lap[:, ~inner]
-        y[inner] = spsolve((lu.T @ lu).tocsc(), -(lu.T @ (lk @ y[~inner])))
+        normal = (lu.T @ lu).tocsc()
+        rhs = -(lu.T @ (lk @ y[~inner]))
+        if normal.shape[0] <= _FILL_DIRECT_MAX:
+            y[inner] = spsolve(normal, rhs)
+        else:
+            y[inner] = _solve_large_fill(normal, rhs)
         values[block] = y.reshape(dims)
     return values

@@ -144,7 +144,7 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
     limit = (" The limit of each change is given below." if scan.changes else
              " This scan has no change; a pair of CPs closing in below the grid's resolution "
              "would show as an early warning or an unresolved change.")
-    blocks = [BulletList(CAUTIONS[:-1] + (CAUTIONS[-1] + limit,))]
+    blocks = [BulletList(CAUTIONS[:-1] + (CAUTIONS[-1] + limit,) + _core_caution(scan))]
     if scan.changes:
         blocks.append(tables.resolution_table(scan))
     doc.sections.append(Section("cautions", "Cautions", tuple(blocks)))
@@ -164,6 +164,18 @@ def build_document(scan: ScanData, *, date=None, progress=None) -> Document:
         "critical_points.csv: one row per critical point per frame, with its persistent "
         "track id; positions in Å, densities in atomic units.")),)))
     return doc
+
+
+def _core_caution(scan: ScanData) -> tuple:
+    """The caution for valence-only (ECP) atoms, when a frame has any."""
+    notes = sorted({a["core_model"].get("note", f"{a.get('element')}{a.get('number')}")
+                    for f in scan.frames for a in f.get("atoms") or []
+                    if isinstance(a, dict) and a.get("core_model")})
+    if not notes:
+        return ()
+    return ("; ".join(notes) + ". An effective-core-potential density has no core: a "
+            "spherical model core was restored, and the topology near such atoms follows "
+            "the core model used.",)
 
 
 def _change_line(scan: ScanData, change, k: int) -> str:
