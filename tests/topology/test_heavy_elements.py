@@ -215,3 +215,38 @@ def test_pd_ethylene_ecp_and_all_electron_have_the_same_graph(pd_frames):
         assert sorted(ring.atoms) == [1, 2, 3]
         nucleus = topo.cp("n1")
         assert nucleus.rho > 100.0      # a nuclear maximum, not a crater
+
+
+def test_frame_and_inspect_cli_name_the_valence_only_atom(pd_frames, tmp_path, capsys):
+    import json
+
+    from trackscan.cli import main
+    from trackscan.io.cube import write_cube
+
+    cube = tmp_path / "pd_ecp.cube"
+    write_cube(cube, pd_frames["ecp"][0])
+    assert main(["inspect", str(cube)]) == 0
+    text = capsys.readouterr().out
+    assert "Pd1: valence-only density (about 28 core electrons missing)" in text
+    out = tmp_path / "frame.json"
+    assert main(["frame", str(cube), "--json", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert "core   Pd1: valence-only density (about 28 core electrons missing)" in text
+    assert "model core restored at Pd1" in text
+    assert "= 7 - 7 + 1 - 0 = 1 (expected 1): holds" in text
+    frame = json.loads(out.read_text())
+    assert frame["atoms"][0]["core_model"]["missing_electrons"] == 28
+
+
+def test_charge_column_names_the_missing_core(pd_frames):
+    # codes such as Gaussian write the valence charge (Z - core) in the cube:
+    # 18 for Pd with a 28-electron core
+    grid = pd_frames["ecp"][0]
+    charges = grid.numbers.astype(float)
+    charges[0] = 18.0
+    relabelled = DensityGrid(grid.values, grid.origin, grid.axes, grid.numbers, charges,
+                             grid.positions)
+    found = find_valence_only(relabelled)
+    assert [(a.index, a.missing_electrons) for a in found] == [(0, 28)]
+    assert "nuclear charge 18" in found[0].evidence[0]
+    assert any("crater" in e for e in found[0].evidence)
