@@ -26,6 +26,7 @@ import os
 import sys
 from pathlib import Path
 
+from trackscan.cli.analyze import summary_lines
 from trackscan.io.manifest import load_manifest
 from trackscan.progress import TextProgress
 
@@ -46,28 +47,6 @@ def add_arguments(parser) -> None:
                         help="dask.distributed scheduler for generator calls and analyses")
 
 
-def _fmt(x) -> str:
-    return f"{x:.6g}"
-
-
-def change_lines(scan: dict) -> list:
-    """Printed table of the refined changes."""
-    unit = scan["scan"]["coordinate"].get("unit", "")
-    if not scan["changes"]:
-        return ["no structural change inside the scan"]
-    rows = [("#", "bracket", "estimate", "method", "new frames", "bisection")]
-    for n, ch in enumerate(scan["changes"], start=1):
-        a, b = ch["bracket"]
-        unc = ch.get("uncertainty") or {}
-        err = unc.get("model_error")
-        est = _fmt(ch["estimate"]) + (f" ± {err:.2g}" if err is not None else "")
-        rows.append((str(n), f"{_fmt(a)} → {_fmt(b)} {unit}".strip(), est, ch["estimate_method"],
-                     str(ch.get("evaluations", 0)),
-                     str((ch.get("refine") or {}).get("bisection_evaluations", ""))))
-    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
-    return ["  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip() for r in rows]
-
-
 def _backend(args):
     from trackscan.refine.backends import make_backend
 
@@ -75,13 +54,17 @@ def _backend(args):
 
 
 def run(args) -> int:
+    from trackscan.cli.outputs import output_folder
+
+    manifest = load_manifest(args.manifest)
+    with output_folder(args.out if args.out else Path("reports") / manifest.name) as out:
+        return _refine(args, manifest, out)
+
+
+def _refine(args, manifest, out) -> int:
     from trackscan.analysis import write_scan
     from trackscan.refine.scan import refine_manifest, suggest_values
 
-    from trackscan.io.output import prepare_output_dir
-
-    manifest = load_manifest(args.manifest)
-    out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
     backend = _backend(args)
     try:
         if args.suggest:
@@ -111,7 +94,7 @@ def run(args) -> int:
     files = write_report(path, out, source_dir=manifest.base_dir)
     print(f"refine: {result.message}; {result.evaluations} new frame(s) this run, "
           f"{result.total_evaluations} in all")
-    for line in change_lines(scan):
+    for line in summary_lines(scan):
         print(line)
     print(f"wrote {os.fspath(path)} and {os.fspath(files.html)}")
     sys.stdout.flush()

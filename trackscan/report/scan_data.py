@@ -15,16 +15,13 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from trackscan.elements import symbol
-from trackscan.errors import InputError, ParseError
+from trackscan.errors import InputError, ParseError, ScanFormatError
+from trackscan.units import unit_symbol
 
 __all__ = ["ScanData", "load_scan", "CP_KINDS", "atom_label", "frame_energy", "cp_by_id"]
 
 #: Critical-point kinds of the contract, in the order the report lists them.
 CP_KINDS = ("nuclear", "non_nuclear", "bond", "ring", "cage", "degenerate")
-
-
-class ScanFormatError(InputError):
-    """A scan result lacks a key the report needs, or has the wrong type."""
 
 
 def atom_label(atom) -> str:
@@ -82,10 +79,7 @@ class ScanData:
     @property
     def unit_symbol(self) -> str:
         """Short symbol of the coordinate unit for axes and tables (Å, °, bohr)."""
-        unit = self.coordinate_unit.lower()
-        return {"angstrom": "Å", "ångström": "Å", "a": "Å", "å": "Å",
-                "degree": "°", "degrees": "°", "deg": "°",
-                "bohr": "bohr", "radian": "rad", "rad": "rad"}.get(unit, self.coordinate_unit)
+        return unit_symbol(self.coordinate_unit)
 
     @property
     def frames(self) -> list:
