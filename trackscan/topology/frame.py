@@ -286,10 +286,10 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
     else:
         label = type(field).__name__
         cores = []
-    for m in cores:
-        warn(f"{m['note']}: the topology near it follows the model core "
-             f"({m['missing_electrons']} electrons restored, no critical points within "
-             f"{float(m['core_radius_bohr']):.2f} bohr)")
+    # said with the density warnings, once the search is known to be bounded
+    doubts = [f"{m['note']}: the topology near it follows the model core "
+              f"({m['missing_electrons']} electrons restored, no critical points within "
+              f"{float(m['core_radius_bohr']):.2f} bohr)" for m in cores] + doubts
     timings["field"] = time.perf_counter() - t0
     region = Region(grid, settings.boundary_margin)
     nuclear, skipped = nuclear_points(field, grid, region)
