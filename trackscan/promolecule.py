@@ -2,15 +2,23 @@
 
 Each atom H–Ar is a set of Slater-type orbitals with the screening constants
 of Clementi & Raimondi [1]_ (``zeta = Z_eff / n``), occupied in aufbau order
-(1s, 2s, 2p, 3s, 3p) and averaged over the sphere, so that
+(1s, 2s, 2p, 3s, 3p) and averaged over the sphere.  Each atom K–Rn (Z =
+19-86) has one Slater-type orbital per occupied subshell of its ground-state
+configuration, with the exponent and effective quantum number ``n*`` of
+Slater's rules [2]_ (:mod:`trackscan.slater`).  So
 
 .. math::
 
-    \\rho_A(r) = \\sum_{nl} N_{nl} \\frac{(2\\zeta_{nl})^{2n+1}}{4\\pi (2n)!}
-                 r^{2n-2} e^{-2\\zeta_{nl} r}.
+    \\rho_A(r) = \\sum_{nl} N_{nl} \\frac{(2\\zeta_{nl})^{2n^*+1}}{4\\pi \\Gamma(2n^*+1)}
+                 r^{2n^*-2} e^{-2\\zeta_{nl} r}
 
-Each term integrates to its occupation ``N_nl``, so an atom integrates to
-``Z`` exactly.  Value, gradient and Hessian are analytic, so the model
+(``n* = n`` for Clementi & Raimondi).  Each term integrates to its
+occupation ``N_nl``, so an atom integrates to ``Z`` exactly.  Measured
+against PySCF's spherically averaged atomic Hartree-Fock densities
+(``benchmarks/free_atoms.py``) the Slater atoms are rougher than the
+Clementi-Raimondi ones, chiefly in the shell structure between the core
+shells; that is why :class:`trackscan.fields.GridField` smooths the
+remainder inside each core rather than trusting the model there.  Value, gradient and Hessian are analytic, so the model
 implements :class:`trackscan.field.Field` and topology runs on it without a
 grid.  It is a *model*: every output made from it says so through
 :attr:`Promolecule.label`.
@@ -19,6 +27,8 @@ References
 ----------
 .. [1] E. Clementi and D. L. Raimondi, "Atomic screening constants from SCF
    functions", J. Chem. Phys. 38, 2686 (1963). :DOI:`10.1063/1.1733573`
+.. [2] J. C. Slater, "Atomic shielding constants", Phys. Rev. 36, 57 (1930).
+   :DOI:`10.1103/PhysRev.36.57`
 """
 
 from __future__ import annotations
@@ -29,12 +39,21 @@ import numpy as np
 
 from trackscan.grid import DensityGrid
 from trackscan.field import FieldBase
+from trackscan.slater import MAX_Z, slater_shells
 
-__all__ = ["Promolecule", "CLEMENTI_RAIMONDI", "atom_terms", "MODEL_LABEL", "promolecule_grid",
-           "grid_box"]
+__all__ = ["Promolecule", "CLEMENTI_RAIMONDI", "atom_terms", "core_terms", "MODEL_LABEL",
+           "MAX_Z", "model_label", "promolecule_grid", "grid_box"]
 
 MODEL_LABEL = "promolecular model (Clementi-Raimondi STO free atoms)"
 """Label carried by every output made from the built-in model."""
+
+HEAVY_LABEL = MODEL_LABEL + " with Slater-rule STO atoms beyond Ar"
+"""Label of a model with atoms beyond Ar (starts with :data:`MODEL_LABEL`)."""
+
+
+def model_label(numbers) -> str:
+    """:data:`MODEL_LABEL`, or :data:`HEAVY_LABEL` when an atom is beyond Ar."""
+    return HEAVY_LABEL if any(int(z) > 18 for z in numbers) else MODEL_LABEL
 
 #: Clementi & Raimondi (1963) effective nuclear charges Z_eff, in the order
 #: 1s, 2s, 2p, 3s, 3p (as tabulated in ../shared/METHODS.md section 5).
@@ -69,41 +88,100 @@ _R_FLOOR = 1e-8
 _CHUNK = 65536
 
 
+def atom_shells(z: int) -> list:
+    """Occupied shells of the free atom `z`, innermost first.
+
+    Returns
+    -------
+    list of (electrons, n_star, zeta)
+        Clementi & Raimondi (1s, 2s, 2p, 3s, 3p) for H-Ar, Slater's rules
+        (:func:`trackscan.slater.slater_shells`) for K-Rn.
+
+    Raises
+    ------
+    ValueError
+        If `z` is outside H-Rn.
+    """
+    z = int(z)
+    if z in CLEMENTI_RAIMONDI:
+        left = z
+        out = []
+        for (n, cap), zeff in zip(_SHELLS, CLEMENTI_RAIMONDI[z]):
+            occ = min(cap, left)
+            left -= occ
+            if occ == 0:
+                break
+            out.append((occ, n, zeff / n))
+        assert left == 0
+        return out
+    if not 1 <= z <= MAX_Z:
+        raise ValueError(f"the promolecular model covers H-Rn (Z = 1-{MAX_Z}), got Z = {z}")
+    return [(occ, n_star, zeta) for n, l, occ, zeta, n_star in slater_shells(z)]
+
+
+def _terms(shells):
+    terms = []
+    for occ, n, zeta in shells:
+        a = 2.0 * zeta
+        if float(n).is_integer():
+            n = int(n)
+            norm = math.factorial(2 * n)
+        else:
+            norm = math.gamma(2.0 * n + 1.0)
+        c = occ * a ** (2 * n + 1) / (4.0 * math.pi * norm)
+        terms.append((c, 2 * n - 2, a))
+    return terms
+
+
 def atom_terms(z: int):
     """Radial terms ``c * r**m * exp(-a*r)`` of the spherical atom `z`.
 
     Parameters
     ----------
     z : int
-        Atomic number, 1 to 18.
+        Atomic number, 1 to 86.
 
     Returns
     -------
     list of (c, m, a)
-        Coefficient (e/bohr^(3+m)), power ``m = 2n - 2`` and decay ``a = 2 zeta``
+        Coefficient (e/bohr^(3+m)), power ``m = 2n* - 2`` and decay ``a = 2 zeta``
         (1/bohr) of each occupied shell.
 
     Raises
     ------
     ValueError
-        If `z` is outside H–Ar.
+        If `z` is outside H-Rn.
     """
-    z = int(z)
-    if z not in CLEMENTI_RAIMONDI:
-        raise ValueError(f"the promolecular model covers H-Ar (Z = 1-18), got Z = {z}")
-    left = z
-    terms = []
-    for (n, cap), zeff in zip(_SHELLS, CLEMENTI_RAIMONDI[z]):
-        occ = min(cap, left)
-        left -= occ
-        if occ == 0:
+    return _terms(atom_shells(z))
+
+
+def core_terms(z: int, electrons: int):
+    """Radial terms of the innermost `electrons` electrons of the free atom `z`.
+
+    The model core of an atom whose density was computed with an effective
+    core potential: the shells are taken innermost first (Slater's group
+    order), the last one partly if `electrons` ends inside it.
+
+    Parameters
+    ----------
+    z : int
+    electrons : int
+        Core electrons, 0 to ``z``.
+
+    Returns
+    -------
+    list of (c, m, a), as :func:`atom_terms`
+    """
+    left = int(electrons)
+    if not 0 <= left <= int(z):
+        raise ValueError(f"core electrons must be 0 to Z = {z}, got {electrons}")
+    shells = []
+    for occ, n, zeta in atom_shells(z):
+        if left <= 0:
             break
-        zeta = zeff / n
-        a = 2.0 * zeta
-        c = occ * a ** (2 * n + 1) / (4.0 * math.pi * math.factorial(2 * n))
-        terms.append((c, 2 * n - 2, a))
-    assert left == 0
-    return terms
+        shells.append((min(occ, left), n, zeta))
+        left -= occ
+    return _terms(shells)
 
 
 def _radial(terms, r, order):
@@ -135,20 +213,21 @@ def _radial(terms, r, order):
 
 
 class Promolecule(FieldBase):
-    """Sum of Clementi–Raimondi free-atom densities; a :class:`~trackscan.field.Field`.
+    """Sum of free-atom densities (Clementi–Raimondi, Slater); a :class:`~trackscan.field.Field`.
 
     Parameters
     ----------
     numbers : (n,) array_like of int
-        Atomic numbers, 1 to 18.
+        Atomic numbers, 1 to 86.
     positions : (n, 3) array_like, bohr
         Nuclear positions.
 
     Attributes
     ----------
     label : str
-        ``"promolecular model (Clementi-Raimondi STO free atoms)"``; put it in
-        every output that uses the model.
+        ``"promolecular model (Clementi-Raimondi STO free atoms)"`` (with
+        " with Slater-rule STO atoms beyond Ar" when there are such atoms);
+        put it in every output that uses the model.
     numbers, positions : numpy arrays (read-only)
 
     Notes
@@ -163,6 +242,7 @@ class Promolecule(FieldBase):
     ----------
     .. [1] E. Clementi and D. L. Raimondi, J. Chem. Phys. 38, 2686 (1963).
        :DOI:`10.1063/1.1733573`
+    .. [2] J. C. Slater, Phys. Rev. 36, 57 (1930). :DOI:`10.1103/PhysRev.36.57`
 
     Examples
     --------
@@ -184,6 +264,7 @@ class Promolecule(FieldBase):
         self._terms = [atom_terms(z) for z in numbers]
         numbers.setflags(write=False)
         positions.setflags(write=False)
+        self.label = model_label(numbers)
         self.numbers = numbers
         self.positions = positions
 
@@ -330,11 +411,11 @@ def promolecule_grid(numbers, positions, *, spacing: float = 0.15, margin: float
     Returns
     -------
     DensityGrid
-        Its first comment line is :data:`MODEL_LABEL`.
+        Its first comment line is the model's label (:func:`model_label`).
     """
     model = Promolecule(numbers, positions)
     origin, axes, shape = grid_box(model.positions, spacing=spacing, margin=margin)
     values = sample_field(model, origin, axes, shape)
     return DensityGrid(values, origin, axes, model.numbers, model.numbers.astype(float),
                        model.positions, source=source,
-                       comments=(MODEL_LABEL, f"trackscan promolecule, spacing {spacing:g} bohr"))
+                       comments=(model.label, f"trackscan promolecule, spacing {spacing:g} bohr"))

@@ -146,11 +146,16 @@ def test_drive_atoms_beyond_geometry_rejected_when_built(scan_dir):
     assert info.value.key == "generator.geometry.drive.distance"
 
 
-def test_promolecule_rejects_heavy_elements(scan_dir):
+def test_promolecule_takes_heavy_elements_but_not_beyond_rn(scan_dir):
     (scan_dir / "kbr.xyz").write_text("2\nc\nK 0 0 0\nBr 0 0 3\n")
     cfg = parse({"geometry": {"xyz": "kbr.xyz", "drive": {"distance": [1, 2]}},
                  "promolecule": {}}, scan_dir)
-    with pytest.raises(ConfigError, match="H-Ar"):
+    gen = make_generator(cfg)
+    assert "Slater-rule" in gen.describe()
+    (scan_dir / "fr.xyz").write_text("2\nc\nFr 0 0 0\nBr 0 0 3\n")
+    cfg = parse({"geometry": {"xyz": "fr.xyz", "drive": {"distance": [1, 2]}},
+                 "promolecule": {}}, scan_dir)
+    with pytest.raises(ConfigError, match="H-Rn"):
         make_generator(cfg)
 
 

@@ -5,7 +5,9 @@ attractors, bond, ring and cage points), traces the bond paths and prints a
 table: kind, position (Å), density, Laplacian and ellipticity, and the atoms
 each point belongs to, followed by the Poincaré–Hopf check
 n − b + r − c (1 for a molecule, 0 for a periodic cell).  A frame that fails
-the check after denser retries is reported as incomplete.  With --json the
+the check after denser retries is reported as incomplete.  An atom whose
+density has no core (an effective core potential) is named, with the model
+core restored for it.  With --json the
 frame is also written as one frame object of the scan.json contract; it
 never replaces the input cube or a file trackscan did not write (the files
 it wrote are listed in the folder's .trackscan-output).
@@ -98,6 +100,8 @@ def run(args) -> int:
     symbols = grid.symbols
     print(f"file   {grid.source}")
     print(f"field  {topo.field}")
+    for m in topo.core_models:
+        print(f"core   {m['note']} ({'; '.join(m['evidence'])}); {m['treatment']}")
     if topo.grid_info.get("density_model"):
         print(f"density  {topo.grid_info['density_model']} -- a model density, not a "
               "quantum-chemistry result")

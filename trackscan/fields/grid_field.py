@@ -20,9 +20,12 @@ import logging
 import numpy as np
 
 from trackscan.fields.bspline import TricubicBSpline
+from trackscan.fields.core_model import core_radius as valence_core_radius
+from trackscan.fields.core_model import find_valence_only
 from trackscan.fields.localized import R_INNER, R_OUTER, LocalizedPromolecule
 from trackscan.grid import DensityGrid
 from trackscan.field import FieldBase
+from trackscan.promolecule import MAX_Z
 
 __all__ = ["GridField", "CORE_RADIUS"]
 
@@ -41,11 +44,17 @@ class GridField(FieldBase):
     grid : DensityGrid
     subtract_promolecule : bool
         Spline ``rho - P`` and add the analytic ``P`` back, with ``P`` the
-        core-localised free-atom model.  Atoms outside H-Ar, atoms whose
-        nuclear charge in the file is positive but differs from Z (an
-        effective core potential: the file has no core density) and H/He
-        atoms whose samples show no nuclear cusp (a Gaussian basis set; see
-        ``_smooth_light_nuclei``) are left out of ``P``.
+        core-localised free-atom model (every element H-Rn).  H/He atoms
+        whose samples show no nuclear cusp (a Gaussian basis set; see
+        ``_smooth_light_nuclei``) are left out of ``P``.  Atoms whose density
+        has no core (an effective core potential, recognised by
+        :func:`trackscan.fields.core_model.find_valence_only`) first get
+        their missing core electrons back as the innermost shells of the
+        free atom, and their core sphere reaches ``CORE_MARGIN`` beyond the
+        valence shell maximum (:func:`~trackscan.fields.core_model.core_radius`):
+        inside it the field is the free atom plus the smooth fill, so the
+        atom has one attractor at its nucleus and no critical point in its
+        core.  Without subtraction the restored core is added analytically.
     r_in, r_out : float, bohr
         Switching radii of the localised promolecule.
     degree : {3, 5}
@@ -81,6 +90,11 @@ class GridField(FieldBase):
     core_radii : (n,) float array, bohr
         Per atom, the radius of the sphere whose samples were replaced (0
         where nothing was); the critical-point search keeps out of it.
+    valence_only : list of ValenceOnlyAtom
+        Atoms whose density has no core (see :mod:`trackscan.fields.core_model`).
+    core_electrons : (n,) int array
+        Per atom, the model core electrons added to the density (0 for
+        all-electron atoms).
 
     Notes
     -----
@@ -105,32 +119,51 @@ class GridField(FieldBase):
         values = grid.values
         self.model = None
         self.core_radii = np.zeros(grid.n_atoms)
+        self.valence_only = find_valence_only(grid) if grid.n_atoms else []
+        self.core_electrons = np.zeros(grid.n_atoms, dtype=np.int64)
+        z = grid.numbers
+        cell = grid.cell if grid.periodic else None
+        radii = np.full(grid.n_atoms, float(core_radius))
+        if grid.n_atoms > 1:
+            d = np.linalg.norm(grid.positions[:, None] - grid.positions[None], axis=-1)
+            np.fill_diagonal(d, np.inf)
+            nearest = d.min(axis=1)
+        else:
+            nearest = np.full(grid.n_atoms, np.inf)
+        for a in self.valence_only:
+            self.core_electrons[a.index] = a.missing_electrons
+            radii[a.index] = valence_core_radius(a, float(nearest[a.index]),
+                                                 max(float(core_radius), CORE_RADIUS))
+        ecp = self.core_electrons > 0
+        modelled = (z >= 1) & (z <= MAX_Z)
+        heavy = (z > 2) & modelled
         if subtract_promolecule and grid.n_atoms:
-            z = grid.numbers
-            ecp = (grid.charges > 0.5) & (np.abs(grid.charges - z) > 0.5)
             smooth = _smooth_light_nuclei(grid, (z >= 1) & (z <= 2) & ~ecp)
             model = LocalizedPromolecule(z, grid.positions, r_in=r_in, r_out=r_out,
-                                         include=~ecp & ~smooth,
-                                         cell=grid.cell if grid.periodic else None)
+                                         include=~smooth, cell=cell)
             if np.any(smooth):
                 logger.info("promolecule not subtracted at %d H/He atom(s) whose density has "
                             "no cusp", int(smooth.sum()))
+            if np.any(ecp):
+                # the missing cores restored (spherical model cores), then the
+                # whole free atoms subtracted as for all-electron atoms
+                core = LocalizedPromolecule(z[ecp], grid.positions[ecp], r_in=r_in, r_out=r_out,
+                                            electrons=self.core_electrons[ecp], cell=cell)
+                values = values + core.on_grid(grid.origin, grid.axes, grid.shape)
             if len(model):
                 values = values - model.on_grid(grid.origin, grid.axes, grid.shape)
                 self.model = model
-                heavy = (z > 2) & (z <= 18) & ~ecp
-                values = _smooth_cores(values, grid, heavy, core_radius)
-                self.core_radii = np.where(heavy, core_radius, 0.0)
+                values = _smooth_cores(values, grid, heavy, radii)
+                self.core_radii = np.where(heavy, radii, 0.0)
+        elif grid.n_atoms and (core_radius > 0 or np.any(ecp)):
+            # the density itself: its cores are still far too steep for the
+            # spline; a missing core is added back analytically as its model
+            values = _smooth_cores(values, grid, heavy, radii)
+            self.core_radii = np.where(heavy, radii, 0.0)
             if np.any(ecp):
-                logger.info("promolecule not subtracted at %d atom(s) with an effective core",
-                            int(ecp.sum()))
-        elif grid.n_atoms and core_radius > 0:
-            # the density itself: its cores are still far too steep for the spline
-            z = grid.numbers
-            ecp = (grid.charges > 0.5) & (np.abs(grid.charges - z) > 0.5)
-            heavy = (z > 2) & ~ecp
-            values = _smooth_cores(values, grid, heavy, core_radius)
-            self.core_radii = np.where(heavy, core_radius, 0.0)
+                self.model = LocalizedPromolecule(z[ecp], grid.positions[ecp], r_in=r_in,
+                                                  r_out=r_out,
+                                                  electrons=self.core_electrons[ecp], cell=cell)
         self.spline = TricubicBSpline(values, periodic=grid.periodic, degree=degree)
 
     def fractional_index(self, points) -> np.ndarray:
@@ -230,10 +263,33 @@ def _smooth_light_nuclei(grid, light, *, reach: float = 1.5, factor: float = 2.0
     return out
 
 
+_FILL_DIRECT_MAX = 2000
+"""Largest core fill (unknown samples) solved directly; larger ones (the
+cores of valence-only atoms) by conjugate gradients, which is 15 times
+faster at 8000 unknowns (0.25 s against 3.9 s for Pd at 0.1 bohr) and
+agrees to 2e-9 e/bohr^3 (rtol 1e-10), far below the printed digits of a cube."""
+
+_FILL_RTOL = 1e-10
+
+
+def _solve_large_fill(normal, rhs):
+    """Conjugate gradients (Jacobi preconditioned) on the fill's normal equations."""
+    from scipy import sparse
+    from scipy.sparse.linalg import cg, spsolve
+
+    x, info = cg(normal, rhs, rtol=_FILL_RTOL, maxiter=20 * normal.shape[0],
+                 M=sparse.diags(1.0 / normal.diagonal()))
+    if info != 0:
+        logger.info("core fill: conjugate gradients did not converge; solving directly")
+        x = spsolve(normal, rhs)
+    return x
+
+
 def _smooth_cores(values, grid, heavy, radius):
     """Replace the samples inside core spheres by the smoothest continuation of the rest.
 
-    The samples within `radius` of each nucleus in `heavy` become the values
+    The samples within `radius` (bohr; one number, or one per atom) of each
+    nucleus in `heavy` become the values
     that minimise the sum of squared discrete Laplacians (7-point stencil)
     over the surrounding block, the others held fixed: a discrete
     biharmonic fill [1]_, which meets the outside samples with matching
@@ -251,13 +307,15 @@ def _smooth_cores(values, grid, heavy, radius):
     from scipy import sparse
     from scipy.sparse.linalg import spsolve
 
-    if radius <= 0 or not np.any(heavy):
+    radii = np.broadcast_to(np.asarray(radius, dtype=np.float64), (grid.n_atoms,))
+    heavy = np.asarray(heavy, dtype=bool) & (radii > 0)
+    if not np.any(heavy):
         return values
     values = np.array(values, dtype=np.float64)
     inv = np.linalg.inv(grid.axes)
     shape = np.asarray(grid.shape)
-    half = radius * np.linalg.norm(inv, axis=0) + 3.0
-    for pos in grid.positions[heavy]:
+    for pos, radius in zip(grid.positions[heavy], radii[heavy]):
+        half = radius * np.linalg.norm(inv, axis=0) + 3.0
         c = (pos - grid.origin) @ inv
         lo = np.floor(c - half).astype(np.int64)
         hi = np.ceil(c + half).astype(np.int64)
@@ -284,6 +342,11 @@ def _smooth_cores(values, grid, heavy, radius):
              (np.tile(np.arange(m), 7), np.concatenate([centre] + [b.ravel() for b in nbrs]))),
             shape=(m, y.size))
         lu, lk = lap[:, inner], lap[:, ~inner]
-        y[inner] = spsolve((lu.T @ lu).tocsc(), -(lu.T @ (lk @ y[~inner])))
+        normal = (lu.T @ lu).tocsc()
+        rhs = -(lu.T @ (lk @ y[~inner]))
+        if normal.shape[0] <= _FILL_DIRECT_MAX:
+            y[inner] = spsolve(normal, rhs)
+        else:
+            y[inner] = _solve_large_fill(normal, rhs)
         values[block] = y.reshape(dims)
     return values

@@ -22,7 +22,7 @@ import itertools
 
 import numpy as np
 
-from trackscan.promolecule import _R_FLOOR, Promolecule, atom_terms
+from trackscan.promolecule import _R_FLOOR, MAX_Z, atom_terms, core_terms
 from trackscan.promolecule import _radial as _atom_radial
 from trackscan.field import FieldBase
 
@@ -71,7 +71,7 @@ class LocalizedPromolecule(FieldBase):
     Parameters
     ----------
     numbers : (n,) array_like of int
-        Atomic numbers; atoms outside H-Ar (or with ``include`` False) are
+        Atomic numbers; atoms outside H-Rn (or with ``include`` False) are
         left out.
     positions : (n, 3) array_like, bohr
     r_in, r_out : float, bohr
@@ -87,56 +87,69 @@ class LocalizedPromolecule(FieldBase):
     cell : (3, 3) array_like, optional
         Periodic cell vectors (rows); periodic images within `r_out` of the
         cell are then included.
+    electrons : (n,) array_like of int, optional
+        Per atom, how many of its innermost electrons are modelled (default
+        all ``Z``): the model core of an atom whose density was computed
+        with an effective core potential (:func:`~trackscan.promolecule.core_terms`).
 
     Notes
     -----
     The free atoms are those of :class:`~trackscan.promolecule.Promolecule`
-    (Clementi & Raimondi 1963 Slater-type orbitals).
+    (Clementi & Raimondi 1963 Slater-type orbitals for H-Ar, Slater's rules
+    1930 beyond).
     """
 
     def __init__(self, numbers, positions, *, r_in: float = R_INNER, r_out: float = R_OUTER,
-                 soften: float = SOFTEN, include=None, cell=None):
+                 soften: float = SOFTEN, include=None, cell=None, electrons=None):
         if not 0 <= r_in < r_out:
             raise ValueError(f"need 0 <= r_in < r_out, got {r_in}, {r_out}")
         numbers = np.asarray(numbers, dtype=np.int64).reshape(-1)
         positions = np.asarray(positions, dtype=np.float64).reshape(-1, 3)
-        keep = np.array([1 <= z <= 18 for z in numbers], dtype=bool)
+        electrons = numbers.copy() if electrons is None else \
+            np.asarray(electrons, dtype=np.int64).reshape(-1)
+        keep = np.array([1 <= z <= MAX_Z for z in numbers], dtype=bool) & (electrons > 0)
         if include is not None:
             keep &= np.asarray(include, dtype=bool)
-        numbers, positions = numbers[keep], positions[keep]
+        numbers, positions, electrons = numbers[keep], positions[keep], electrons[keep]
         if cell is not None and len(numbers):
             cell = np.asarray(cell, dtype=np.float64)
             inv = np.linalg.inv(cell)
             pad = r_out * np.linalg.norm(inv, axis=0)  # fractional margin per axis
-            imgs_z, imgs_p = [], []
+            imgs_z, imgs_p, imgs_e = [], [], []
             for shift in itertools.product((-1, 0, 1), repeat=3):
                 p = positions + np.asarray(shift, dtype=float) @ cell
                 f = p @ inv
                 ok = np.all((f > -pad) & (f < 1 + pad), axis=1)
                 imgs_z.append(numbers[ok])
                 imgs_p.append(p[ok])
+                imgs_e.append(electrons[ok])
             numbers, positions = np.concatenate(imgs_z), np.concatenate(imgs_p)
+            electrons = np.concatenate(imgs_e)
         self.numbers = numbers
         self.positions = positions
         self.soften = float(soften)
         self.r_in = float(r_in)
         self.r_out = float(r_out)
-        self._atoms = [Promolecule([z], [p]) for z, p in zip(numbers, positions)]
-        self._groups = [int(z) for z in np.unique(numbers)]     # elements present
-        self._code = np.searchsorted(self._groups, numbers)     # element of each atom
+        self.electrons = electrons
+        # a species is (Z, modelled electrons): the whole atom, or its core
+        self._species = [(int(z), int(e)) for z, e in zip(numbers, electrons)]
+        self._groups = sorted(set(self._species))               # species present
+        index = {s: i for i, s in enumerate(self._groups)}
+        self._code = np.array([index[s] for s in self._species], dtype=np.int64)
         self._table_r = np.linspace(0.0, self.r_out, int(np.ceil(self.r_out / _TABLE_STEP)) + 1)
         self._tables = {}
         self._terms = {}
-        self.max_value = sum(sum(c for c, m, a in atom_terms(z) if m == 0) for z in numbers)
+        self.max_value = sum(sum(c for c, m, a in self._terms_of(s) if m == 0)
+                             for s in self._species)
 
     def _table(self, z):
-        """Switched radial density of element z on the fine table of radii."""
+        """Switched radial density of species z on the fine table of radii."""
         if z not in self._tables:
             self._tables[z] = self._switched(self._table_r, 0.0, 0, z=z)[0]
         return self._tables[z]
 
     def __len__(self):
-        return len(self._atoms)
+        return len(self._species)
 
     def evaluate(self, points, order: int = 2) -> tuple:
         """Value and derivatives at points; see :class:`trackscan.field.Field`.
@@ -154,7 +167,7 @@ class LocalizedPromolecule(FieldBase):
         val = np.zeros(n)
         grad = np.zeros((n, 3)) if order >= 1 else None
         hess = np.zeros((n, 3, 3)) if order >= 2 else None
-        if n == 0 or len(self._atoms) == 0:
+        if n == 0 or len(self._species) == 0:
             return (val, grad, hess)[: order + 1]
         # d[a, i] = pts[i] - positions[a]; pairs in atom-major order
         d = pts[None, :, :] - self.positions[:, None, :]
@@ -193,8 +206,8 @@ class LocalizedPromolecule(FieldBase):
         order : {0, 1, 2}
         codes : (P,) int array, optional
             Element of each distance (index into the elements present).
-        z : int, optional
-            The one element of all distances (instead of `codes`).
+        z : (int, int), optional
+            The one species (Z, electrons) of all distances (instead of `codes`).
 
         Notes
         -----
@@ -248,11 +261,12 @@ class LocalizedPromolecule(FieldBase):
                 d2[k] = out[3]
         return f, d1r, d2
 
-    def _terms_of(self, z):
-        """Radial terms of the free atom of element z."""
-        if z not in self._terms:
-            self._terms[z] = atom_terms(z)
-        return self._terms[z]
+    def _terms_of(self, species):
+        """Radial terms of a species (Z, electrons): the free atom or its core."""
+        if species not in self._terms:
+            z, e = species
+            self._terms[species] = atom_terms(z) if e >= z else core_terms(z, e)
+        return self._terms[species]
 
     def on_grid(self, origin, axes, shape) -> np.ndarray:
         """Values at every point of a regular grid, touching only the spheres.
@@ -284,7 +298,7 @@ class LocalizedPromolecule(FieldBase):
         step = self._table_r[1]
         last = len(self._table_r) - 2
         orthogonal = bool(np.all(axes[~np.eye(3, dtype=bool)] == 0.0))
-        for atom, pos in zip(self._atoms, self.positions):
+        for species, pos in zip(self._species, self.positions):
             c = (pos - origin) @ inv
             lo = np.maximum(np.floor(c - half).astype(np.int64), 0)
             hi = np.minimum(np.ceil(c + half).astype(np.int64), shape - 1)
@@ -307,11 +321,11 @@ class LocalizedPromolecule(FieldBase):
             r = np.sqrt(r2)
             t = np.minimum(r * (1.0 / step), last + 0.999999)
             k = t.astype(np.int64)
-            table = self._table(int(atom.numbers[0]))
+            table = self._table(species)
             f = table[k]
             f += (t - k) * (table[k + 1] - f)
             near = r < _EXACT_RADIUS
             if np.any(near):
-                f[near] = self._switched(r[near], pos[0], 0, z=int(atom.numbers[0]))[0]
+                f[near] = self._switched(r[near], pos[0], 0, z=species)[0]
             out[lo[0]:hi[0] + 1, lo[1]:hi[1] + 1, lo[2]:hi[2] + 1] += f
         return out

@@ -163,9 +163,9 @@ def make_generator(config: GeneratorConfig, manifest_dir=None, *, coordinate=Non
 
 
 def _check_model_elements(drive, manifest):
-    from trackscan.promolecule import CLEMENTI_RAIMONDI
+    from trackscan.promolecule import MAX_Z
     numbers = drive.base.numbers if hasattr(drive, "base") else drive.numbers
-    bad = sorted({int(z) for z in numbers if int(z) not in CLEMENTI_RAIMONDI})
+    bad = sorted({int(z) for z in numbers if not 1 <= int(z) <= MAX_Z})
     if bad:
-        raise ConfigError(f"the promolecular model covers H-Ar only; the geometry has Z = {bad} "
+        raise ConfigError(f"the promolecular model covers H-Rn only; the geometry has Z = {bad} "
                           "(use pyscf or command)", manifest, "generator.promolecule")

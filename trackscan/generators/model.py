@@ -9,7 +9,7 @@ from trackscan.generators.base import (GeneratedFrame, Generator, check_grid_siz
                                        coordinate_value, format_value, sibling)
 from trackscan.io.generator_config import PromoleculeConfig
 from trackscan.io.cube import write_cube
-from trackscan.promolecule import MODEL_LABEL, promolecule_grid
+from trackscan.promolecule import model_label, promolecule_grid
 
 __all__ = ["PromoleculeGenerator"]
 
@@ -17,7 +17,7 @@ logger = logging.getLogger(__name__)
 
 
 class PromoleculeGenerator(Generator):
-    """Cubes of the Clementi–Raimondi promolecule at each geometry.
+    """Cubes of the free-atom promolecule (:mod:`trackscan.promolecule`) at each geometry.
 
     Parameters
     ----------
@@ -39,7 +39,9 @@ class PromoleculeGenerator(Generator):
         self.options = options
 
     def describe(self) -> str:
-        return f"{MODEL_LABEL}, cube spacing {self.options.spacing:g} bohr"
+        drive = self.drive
+        numbers = drive.base.numbers if hasattr(drive, "base") else drive.numbers
+        return f"{model_label(numbers)}, cube spacing {self.options.spacing:g} bohr"
 
     def generate(self, value: float, cube_path, workdir=None) -> GeneratedFrame:
         cube_path = Path(cube_path)
@@ -50,7 +52,7 @@ class PromoleculeGenerator(Generator):
                                 margin=self.options.margin, source=str(cube_path))
         xyz = sibling(cube_path, ".xyz")
         self.write_geometry(value, xyz)
-        write_cube(cube_path, grid, comments=(MODEL_LABEL, f"trackscan value={value!r}"))
+        write_cube(cube_path, grid, comments=(grid.comments[0], f"trackscan value={value!r}"))
         logger.info("promolecule cube at %s: %s (%d points)", format_value(value), cube_path,
                     grid.values.size)
         return GeneratedFrame(cube_path, coordinate_value(value), None, False, xyz)

@@ -151,7 +151,7 @@ def build_document(scan: ScanView, *, date=None, progress=None, geometries=None)
     limit = (" The limit of each change is given below." if scan.changes else
              " This scan has no change; a pair of CPs closing in below the grid's resolution "
              "would show as an early warning or an unresolved change.")
-    blocks = [BulletList(CAUTIONS[:-1] + (CAUTIONS[-1] + limit,))]
+    blocks = [BulletList(CAUTIONS[:-1] + (CAUTIONS[-1] + limit,) + _core_caution(scan))]
     if scan.changes:
         blocks.append(tables.resolution_table(scan))
     doc.sections.append(Section("cautions", "Cautions", tuple(blocks)))
@@ -174,6 +174,21 @@ def build_document(scan: ScanView, *, date=None, progress=None, geometries=None)
               for k in sorted(geometries)]
     doc.sections.append(Section("files", "Files", (BulletList(tuple(files)),)))
     return doc
+
+
+def _core_caution(scan: ScanView) -> tuple:
+    """The caution for valence-only (ECP) atoms, when a frame has any."""
+    notes = set()
+    for f in scan.frames:
+        for a in f.atoms:
+            core = a.extra.get("core_model")
+            if isinstance(core, dict):
+                notes.add(str(core.get("note") or a.label))
+    if not notes:
+        return ()
+    return ("; ".join(sorted(notes)) + ". An effective-core-potential density has no core: "
+            "a spherical model core was restored, and the topology near such atoms follows "
+            "the core model used.",)
 
 
 def _change_section(scan: ScanView, change, k: int, geometries: dict) -> Section:

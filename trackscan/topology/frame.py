@@ -68,6 +68,11 @@ class FrameTopology:
         Seeding level at which the search stopped (0 = first pass).
     timings : dict
         Seconds per stage (not part of the JSON: it would break determinism).
+    core_models : list of dict
+        One per atom whose density has no core (an effective core
+        potential): ``{"atom", "missing_electrons", "treatment", "evidence",
+        "core_radius_bohr"}``; written into that atom's entry of ``atoms``
+        as ``"core_model"``.
     """
 
     critical_points: list
@@ -82,6 +87,7 @@ class FrameTopology:
     field: str = FIELD_LABEL
     seeding_level: int = 0
     timings: dict = dc_field(default_factory=dict)
+    core_models: list = dc_field(default_factory=list)
 
     def to_frame(self):
         """The frame as a :class:`trackscan.model.Frame` (not yet placed in a scan)."""
@@ -137,12 +143,41 @@ class FrameTopology:
             "warnings": list(self.warnings),
             "critical_points": [cp.to_dict() for cp in self.critical_points],
             "bond_paths": [bp.to_dict() for bp in self.bond_paths],
-            "atoms": [{"number": i + 1, "element": symbol(z), "Z": int(z),
-                       "position_bohr": fix(p)}
-                      for i, (z, p) in enumerate(zip(self.numbers, self.positions))],
+            "atoms": self._atoms_dict(),
             "grid": dict(self.grid_info),
             "field": self.field,
         }
+
+
+    def _atoms_dict(self) -> list:
+        cores = {m["atom"]: m for m in self.core_models}
+        out = []
+        for i, (z, p) in enumerate(zip(self.numbers, self.positions)):
+            entry = {"number": i + 1, "element": symbol(z), "Z": int(z), "position_bohr": fix(p)}
+            if i + 1 in cores:
+                entry["core_model"] = dict(cores[i + 1])
+            out.append(entry)
+        return out
+
+
+CORE_TREATMENT = ("model core restored: the innermost {n} electrons of the free atom "
+                  "(trackscan.promolecule) added to the density; the core sphere of "
+                  "{r:.2f} bohr is the atom's own (one attractor at the nucleus, no critical "
+                  "points inside, paths entering it end at the nucleus)")
+"""How a valence-only (ECP) atom is analysed, as written into the frame."""
+
+
+def core_models(field) -> list:
+    """The ``core_model`` records of the valence-only atoms of a GridField."""
+    out = []
+    for a in getattr(field, "valence_only", ()):
+        r = float(field.core_radii[a.index])
+        out.append({"atom": a.index + 1, "element": symbol(a.Z),
+                    "missing_electrons": int(a.missing_electrons),
+                    "treatment": CORE_TREATMENT.format(n=int(a.missing_electrons), r=r),
+                    "evidence": list(a.evidence), "core_radius_bohr": sig(r),
+                    "note": a.describe()})
+    return out
 
 
 def poincare_hopf(counts: dict, periodic: bool) -> dict:
@@ -173,7 +208,7 @@ def _without_nuclear_maxima(cps, maxima, tol):
 
 
 def _grid_info(grid):
-    from trackscan.promolecule import MODEL_LABEL
+    from trackscan.promolecule import HEAVY_LABEL, MODEL_LABEL
 
     comments = [str(c).strip() for c in grid.comments]
     info = {"shape": [int(n) for n in grid.shape], "origin_bohr": fix(grid.origin),
@@ -181,7 +216,8 @@ def _grid_info(grid):
             "periodic": bool(grid.periodic), "comments": comments}
     if comments and comments[0].startswith(MODEL_LABEL):
         # written by trackscan's promolecule generator: say so wherever it is shown
-        info["density_model"] = MODEL_LABEL
+        info["density_model"] = comments[0] if comments[0].startswith(HEAVY_LABEL) \
+            else MODEL_LABEL
     return info
 
 
@@ -238,13 +274,22 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
     if field is None:
         check_analysable(grid)       # too few points, or a plateau: refused, not traced
         field = GridField(grid, subtract_promolecule=settings.subtract_promolecule)
-        if field.model is not None:
+        if field.model is not None and settings.subtract_promolecule:
             label = FIELD_LABEL + ", core promolecule subtracted"
         elif np.any(field.core_radii > 0):
             label = FIELD_LABEL + ", core samples smoothed"
+        cores = core_models(field)
+        if cores:
+            label += ", model core restored at " + ", ".join(
+                f"{m['element']}{m['atom']}" for m in cores)
         doubts = density_warnings(grid, field)   # said once the search is known to be bounded
     else:
         label = type(field).__name__
+        cores = []
+    # said with the density warnings, once the search is known to be bounded
+    doubts = [f"{m['note']}: the topology near it follows the model core "
+              f"({m['missing_electrons']} electrons restored, no critical points within "
+              f"{float(m['core_radius_bohr']):.2f} bohr)" for m in cores] + doubts
     timings["field"] = time.perf_counter() - t0
     region = Region(grid, settings.boundary_margin)
     nuclear, skipped = nuclear_points(field, grid, region)
@@ -357,4 +402,4 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
                          numbers=np.array(grid.numbers), positions=np.array(grid.positions),
                          grid_info=_grid_info(grid), poincare_hopf=ph, complete=complete,
                          warnings=warnings, source=grid.source, field=label,
-                         seeding_level=level, timings=timings)
+                         seeding_level=level, timings=timings, core_models=cores)

@@ -127,6 +127,10 @@ def density_warnings(grid, field=None) -> list:
         idx = np.rint(u).astype(np.int64)
         shape = np.asarray(grid.shape)
         inside = np.all((idx >= 0) & (idx < shape), axis=1)
+        # valence-only (ECP) atoms have their core restored and are named apart
+        restored = getattr(field, "core_electrons", None)
+        if restored is not None and len(restored) == grid.n_atoms:
+            inside &= np.asarray(restored) == 0
         if np.any(inside):
             k = idx[inside]
             data = values[k[:, 0], k[:, 1], k[:, 2]]
