@@ -44,8 +44,9 @@ def newton_search(field, x0, *, gtol: float, maxiter: int, max_step: float, insi
         Seeds entering a sphere of `nuclear_radius` around a nucleus are
         abandoned (the cusp; the nuclear attractor is placed separately).
     nuclear_radius : float or (n,) float array, bohr
-    floor : float
-        Seeds wandering below a tenth of this density are abandoned.
+    floor : float or (N,) float array
+        Seeds wandering below a tenth of this density are abandoned (per
+        seed: 0 for seeds inside a cage, where the floor does not apply).
 
     Returns
     -------
@@ -62,6 +63,7 @@ def newton_search(field, x0, *, gtol: float, maxiter: int, max_step: float, insi
     nuc = None if nuclei is None or len(nuclei) == 0 else np.asarray(nuclei, dtype=float)
     if nuc is not None:
         rad2 = np.broadcast_to(np.asarray(nuclear_radius, dtype=float), (len(nuc),)) ** 2
+    floor = np.broadcast_to(np.asarray(floor, dtype=np.float64), (n,))
     it = 0
     for it in range(1, maxiter + 1):
         idx = np.nonzero(alive & ~converged)[0]
@@ -72,7 +74,7 @@ def newton_search(field, x0, *, gtol: float, maxiter: int, max_step: float, insi
         gn = np.linalg.norm(g, axis=1)
         done = gn < gtol
         converged[idx[done]] = True
-        lost = v < 0.1 * floor
+        lost = v < 0.1 * floor[idx]
         alive[idx[lost & ~done]] = False
         go = ~done & ~lost
         if not np.any(go):
