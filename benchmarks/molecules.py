@@ -215,3 +215,26 @@ def polyacene_chain(n_rings: int = 10):
             u /= np.linalg.norm(u)
             atoms.append(("H", (x + rch * u[0], y + rch * u[1], 0.0)))
     return atoms
+
+
+def spaced_cube(path: Path, atoms, spacing: float = 0.15, *, digits: int = 5) -> Path:
+    """Write the promolecular density of `atoms` (Å) on a box of the given spacing (bohr).
+
+    The box is trackscan's own (:func:`trackscan.promolecule.grid_box`, 4 bohr
+    margin), as ``trackscan demo`` and the model generator make it.
+    """
+    from trackscan.elements import atomic_number
+    from trackscan.io.cube import write_cube
+    from trackscan.promolecule import promolecule_grid
+
+    numbers = [atomic_number(s) for s, _ in atoms]
+    pos = np.array([p for _, p in atoms]) * ANGSTROM
+    write_cube(path, promolecule_grid(numbers, pos, spacing=spacing), digits=digits)
+    return Path(path)
+
+
+BIG_MOLECULES = {
+    "c60": (c60, "C60 cage (60 atoms)"),
+    "acene": (polyacene_chain, "decacene C42H24 (66 atoms, 10 fused rings)"),
+}
+"""Large benchmark molecules: name -> (geometry function, description)."""

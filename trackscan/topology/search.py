@@ -20,9 +20,8 @@ from __future__ import annotations
 import logging
 
 import numpy as np
-from scipy.spatial import cKDTree
 
-from trackscan.topology.newton import merge_points, newton_search
+from trackscan.topology.newton import merge_points, newton_search, outside_nuclear_spheres
 from trackscan.topology.properties import (abramov_energy_densities, canonical_eigenvectors,
                                            classify, ellipticity)
 from trackscan.topology.results import CriticalPoint
@@ -292,28 +291,6 @@ def find_critical_points(field, grid, settings, region, *, level: int = 0,
         seeds.append(np.asarray(extra_seeds, dtype=float).reshape(-1, 3))
     return converge_seeds(field, grid, settings, region, np.concatenate(seeds),
                           envelope=envelope)
-
-
-def outside_nuclear_spheres(x, nuclei, radii) -> np.ndarray:
-    """True for points outside every sphere ``radii[i]`` around ``nuclei[i]``.
-
-    A neighbour list (k-d tree) keeps the cost linear in the number of points
-    whatever the number of atoms.
-    """
-    x = np.asarray(x, dtype=float).reshape(-1, 3)
-    nuclei = np.asarray(nuclei, dtype=float).reshape(-1, 3)
-    ok = np.ones(len(x), dtype=bool)
-    if len(nuclei) == 0 or len(x) == 0:
-        return ok
-    radii = np.broadcast_to(np.asarray(radii, dtype=float), (len(nuclei),))
-    rmax = float(radii.max())
-    k = min(4, len(nuclei))
-    d, j = cKDTree(nuclei).query(x, k=k, distance_upper_bound=rmax)
-    d = d.reshape(len(x), k)
-    j = j.reshape(len(x), k)
-    hit = np.isfinite(d)
-    r = np.where(hit, radii[np.minimum(j, len(nuclei) - 1)], -1.0)
-    return ~np.any(hit & (d <= r), axis=1)
 
 
 def converge_seeds(field, grid, settings, region, x0, *, envelope=None,

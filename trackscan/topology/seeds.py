@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import numpy as np
 from scipy import ndimage
+from scipy.spatial import cKDTree
 
 __all__ = ["grid_seeds", "atom_seeds", "MAX_LEVEL"]
 
@@ -148,27 +149,34 @@ def atom_seeds(positions, *, level: int = 0) -> np.ndarray:
     Returns
     -------
     (M, 3) float array, bohr
+
+    Notes
+    -----
+    Pairs and groups come from neighbour lists (:class:`scipy.spatial.cKDTree`),
+    so the cost grows with the number of near neighbours, not with atoms^2
+    or atoms^3.  At most about ``_MAX_QUADS`` quadruples are made.
     """
     pos = np.asarray(positions, dtype=np.float64).reshape(-1, 3)
     n = len(pos)
     if n < 2:
         return np.zeros((0, 3))
     scale = 1.5 if level >= 1 else 1.0
-    d = np.linalg.norm(pos[:, None] - pos[None], axis=-1)
-    i, j = np.triu_indices(n, 1)
-    keep = d[i, j] < _PAIR_CUTOFF * scale
-    out = [0.5 * (pos[i[keep]] + pos[j[keep]])]
-    near = d < _GROUP_CUTOFF * scale
-    triples = [(a, b, c) for a, b in zip(*np.nonzero(np.triu(near, 1)))
-               for c in range(b + 1, n) if near[a, c] and near[b, c]]
+    tree = cKDTree(pos)
+    pairs = _sorted_pairs(tree, _PAIR_CUTOFF * scale)
+    out = [0.5 * (pos[pairs[:, 0]] + pos[pairs[:, 1]])]
+    # neighbour lists (later atoms only): triples and quadruples with all pairs near
+    near = _sorted_pairs(tree, _GROUP_CUTOFF * scale)
+    later = [set() for _ in range(n)]
+    for a, b in near.tolist():
+        later[a].add(b)
+    triples = [(a, b, c) for a, b in near.tolist()
+               for c in sorted(later[a] & later[b])]
     if triples:
         t = np.asarray(triples)
         out.append(pos[t].mean(axis=1))
         quads = []
         for a, b, c in triples:
-            for e in range(c + 1, n):
-                if near[a, e] and near[b, e] and near[c, e]:
-                    quads.append((a, b, c, e))
+            quads.extend((a, b, c, e) for e in sorted(later[a] & later[b] & later[c]))
             if len(quads) > _MAX_QUADS:
                 break
         if quads:
@@ -176,3 +184,7 @@ def atom_seeds(positions, *, level: int = 0) -> np.ndarray:
     return np.concatenate(out)
 
 
+def _sorted_pairs(tree, radius) -> np.ndarray:
+    """Index pairs (i < j) closer than `radius`, in lexicographic order."""
+    pairs = tree.query_pairs(radius, output_type="ndarray").reshape(-1, 2)
+    return pairs[np.lexsort((pairs[:, 1], pairs[:, 0]))]
