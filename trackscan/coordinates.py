@@ -10,6 +10,9 @@ import math
 
 import numpy as np
 
+from trackscan.units import (ANGSTROM_IN_BOHR, UNITS_OF_KIND, angle_factor, canonical_unit,
+                             length_factor)
+
 __all__ = ["COORDINATE_KINDS", "distance", "angle", "dihedral", "measure", "in_unit",
            "default_tolerance", "difference", "DEFAULT_TOLERANCES"]
 
@@ -77,14 +80,7 @@ def measure(kind: str, atoms, positions) -> float:
     return _FUNCS[kind](positions, *atoms)
 
 
-_UNIT_ALIASES = {
-    "angstrom": ("angstrom", "angstroms", "ang", "a", "\u00e5"),
-    "bohr": ("bohr", "bohrs", "a0", "au", "a.u."),
-    "degree": ("degree", "degrees", "deg", "\u00b0"),
-    "radian": ("radian", "radians", "rad"),
-}
-
-DEFAULT_TOLERANCES = {"angstrom": 1e-3, "bohr": 1e-3 / 0.529177210903, "degree": 0.1,
+DEFAULT_TOLERANCES = {"angstrom": 1e-3, "bohr": 1e-3 * ANGSTROM_IN_BOHR, "degree": 0.1,
                       "radian": math.radians(0.1)}
 """Default largest difference between a listed coordinate value and the value
 measured on the frame's geometry, per unit: 1e-3 Å for distances (the same
@@ -92,12 +88,8 @@ length in bohr), 0.1 degree for angles and dihedrals (the same in radian)."""
 
 
 def _canonical_unit(kind: str, unit: str):
-    u = str(unit).strip().lower()
-    for name, aliases in _UNIT_ALIASES.items():
-        if u in aliases:
-            if (kind == "distance") == (name in ("angstrom", "bohr")):
-                return name
-    return None
+    name = canonical_unit(unit)
+    return name if name in UNITS_OF_KIND.get(kind, ()) else None
 
 
 def in_unit(kind: str, value: float, unit: str):
@@ -110,16 +102,13 @@ def in_unit(kind: str, value: float, unit: str):
         As :func:`measure` returns it: bohr for a distance, degrees otherwise.
     unit : str
         ``angstrom`` / ``bohr`` for distances, ``degree`` / ``radian`` for
-        angles (common spellings accepted).
+        angles (the spellings of :data:`trackscan.units.UNIT_ALIASES`).
     """
-    name = _canonical_unit(kind, unit)
-    if name is None:
+    if _canonical_unit(kind, unit) is None:
         return None
-    if name == "angstrom":
-        return value * 0.529177210903
-    if name == "radian":
-        return math.radians(value)
-    return value
+    if kind == "distance":
+        return value / length_factor(unit)
+    return value / angle_factor(unit)
 
 
 def default_tolerance(kind: str, unit: str):

@@ -41,12 +41,12 @@ def test_analyze_on_a_local_cluster_equals_a_local_run(tmp_path):
         assert main(["analyze", str(tmp_path / "scan.yaml"), "--out", str(out),
                      "--dask", cluster.scheduler_address]) == 0
     assert dumps_scan(remote) == dumps_scan(local)
-    (change,) = local["changes"]
-    assert change["mechanism"] == "fold"
-    assert change["bracket"][0] < 65.855 < change["bracket"][1]
+    (change,) = local.changes
+    assert change.mechanism == "fold"
+    assert change.bracket[0] < 65.855 < change.bracket[1]
     cli_frames = json.loads((out / "scan.json").read_text())["frames"]
     assert [f["critical_points"] for f in cli_frames] == \
-        [f["critical_points"] for f in local["frames"]]
+        [f["critical_points"] for f in local.to_dict()["frames"]]
 
 
 def test_unreachable_scheduler_is_bad_input(tmp_path):

@@ -61,7 +61,7 @@ def test_peak_memory_does_not_grow_with_the_number_of_frames(frames):
     settings = AnalysisSettings()
     few, peak_few, _ = _traced(lambda: analyse_frames(files[:3], settings))
     many, peak_many, held = _traced(lambda: analyse_frames(files, settings))
-    assert len(many) == 10 and all(f["poincare_hopf"]["holds"] for f in many)
+    assert len(many) == 10 and all(f.poincare_hopf.holds for f in many)
     assert many[:3] == few
     # seven more frames cost less than one more grid at the peak ...
     assert peak_many < peak_few + grid_bytes, (peak_few, peak_many, grid_bytes)
@@ -86,9 +86,9 @@ def test_frames_are_yielded_as_they_finish(frames, tmp_path):
     last.write_bytes(files[0].read_bytes())
     stream = iter_frames([files[1], last], AnalysisSettings())
     i, first = next(stream)
-    assert i == 0 and len(first["atoms"]) == 3
+    assert i == 0 and len(first.atoms) == 3
     # swap the not yet analysed frame for another molecule: H2 at 1.4 bohr
     write_cube(last, promolecule_grid([1, 1], [[0, 0, 0], [0, 0, 1.4]], spacing=0.3,
                                       margin=3.0))
     (j, second), = list(stream)
-    assert j == 1 and [a["element"] for a in second["atoms"]] == ["H", "H"]
+    assert j == 1 and [a.element for a in second.atoms] == ["H", "H"]

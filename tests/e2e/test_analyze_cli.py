@@ -139,7 +139,7 @@ def test_changed_frame_is_reanalysed(scan_dir, tmp_path):
     res = analyse_frames(files, m.analysis, cache_dir=cache, progress=events.append)
     assert events[0].done == 1
     assert len(list(cache.glob("*.json"))) == 3
-    assert res[1]["atoms"][0]["position_bohr"] != res[0]["atoms"][0]["position_bohr"]
+    assert res[1].atoms[0].position_bohr != res[0].atoms[0].position_bohr
 
 
 def test_listed_out_of_order_gives_same_changes(scan_dir, analysed):

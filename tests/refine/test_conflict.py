@@ -11,6 +11,8 @@ a midpoint never lands on it by accident.
 import numpy as np
 import pytest
 
+from trackscan.model import Frame
+
 from trackscan.promolecule import Promolecule, promolecule_grid
 from trackscan.refine import annotate_changes, bisection_count, refine_frames
 from trackscan.refine.crossing import SignedSample, fit_crossing
@@ -33,7 +35,7 @@ def _frame(s, calls):
     f["source"] = f"model at s={s!r}"
     f["grid"]["spacing_bohr"] = [float("nan")] * 3       # exact field: no interpolation floor
     f["grid"]["significant_digits"] = 17
-    return f
+    return Frame.from_dict(f)
 
 
 def test_fit_crossing_is_exact_for_a_linear_offset():
@@ -51,8 +53,8 @@ def test_conflict_refined_by_path_offset():
     calls.clear()
     result = refine_frames(frames, evaluate=lambda ps: [_frame(p.value, calls) for p in ps],
                            tolerance=TOL)
-    changes = annotate_changes(result.tracked["frames"], result.tracked["changes"],
-                               tolerance=TOL)
+    changes = [c.to_dict() for c in annotate_changes(result.tracked.frames,
+                                                     result.tracked.changes, tolerance=TOL)]
     (ch,) = changes
     assert ch["mechanism"] == "conflict"
     assert [e["kind"] for e in ch["events"]] == ["bond_switched"]

@@ -43,4 +43,5 @@ def test_refine_through_a_local_cluster(tmp_path, capsys):
     a = json.loads((local / "out" / "scan.json").read_text())["changes"]
     b = json.loads((remote / "out" / "scan.json").read_text())["changes"]
     assert [c["bracket"] for c in a] == [c["bracket"] for c in b]
-    assert all(c["refine"]["converged"] for c in b)
+    # each bracket is at the tolerance, or as narrow as the 0.2 bohr grids resolve
+    assert b and all(c["refine"]["converged"] or "resolution_limit" in c["refine"] for c in b)

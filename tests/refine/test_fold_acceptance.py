@@ -17,6 +17,8 @@ from pathlib import Path
 
 import pytest
 
+from trackscan.model import Frame
+
 from trackscan.promolecule import promolecule_grid
 from trackscan.refine import annotate_changes, bisection_count, refine_frames
 from trackscan.settings import AnalysisSettings
@@ -47,7 +49,7 @@ def analytic_frame(s, calls):
     # an exact field: no interpolation floor, all digits significant
     frame["grid"]["spacing_bohr"] = [float("nan")] * 3
     frame["grid"]["significant_digits"] = 17
-    return frame
+    return Frame.from_dict(frame)
 
 
 def _refine(values, *, jobs=1):
@@ -57,8 +59,8 @@ def _refine(values, *, jobs=1):
     result = refine_frames(frames, evaluate=lambda probes: [analytic_frame(p.value, calls)
                                                             for p in probes],
                            tolerance=TOL, jobs=jobs)
-    changes = annotate_changes(result.tracked["frames"], result.tracked["changes"],
-                               tolerance=TOL)
+    changes = [c.to_dict() for c in annotate_changes(result.tracked.frames,
+                                                     result.tracked.changes, tolerance=TOL)]
     return result, changes, calls
 
 
@@ -101,8 +103,8 @@ def test_budget_and_descending_scan(folds):
                            tolerance=TOL, max_evaluations=2)
     assert not result.converged and "budget" in result.message
     assert len(calls) == result.evaluations == 2
-    assert result.tracked["direction"] == "descending"
-    (ch,) = result.tracked["changes"]
+    assert result.tracked.direction == "descending"
+    (ch,) = result.tracked.to_dict()["changes"]
     a, b = ch["bracket"]
     assert a > b and b < folds[1] < a                  # scan order: old structure first
     # two fold steps probe the side where the pair exists: that end is

@@ -50,7 +50,7 @@ def _run(folder, fail_at=None):
                                        generator=gen)
     except GeneratorError:
         return gen.calls, None
-    return gen.calls, scan
+    return gen.calls, scan.to_dict()
 
 
 def test_interrupted_refine_resumes_without_repeating(tmp_path):

@@ -72,9 +72,9 @@ def test_suggest_writes_geometries_at_the_proposed_values(tmp_path, capsys):
     assert again and all(lo < float(v) < hi for v in again)
     assert hi - lo < 0.05
     # and the added frames are known as the suggestions they answer
-    frames_now = load_frames(load_manifest(manifest), cache_dir=out / ".cache",
-                             suggested_dir=out / "suggested")
-    answered = sorted(f["value"] for f in frames_now if "refine" in f)
+    _, frames_now = load_frames(load_manifest(manifest), cache_dir=out / ".cache",
+                                suggested_dir=out / "suggested")
+    answered = sorted(f.value for f in frames_now if f.refine is not None)
     assert answered == done
     # without --suggest a geometry-only manifest cannot compute frames: one-line error
     assert main(["refine", str(manifest), "--tolerance", "1e-3", "--out", str(out)]) == 2

@@ -14,7 +14,14 @@ import numpy as np
 import pytest
 
 from trackscan.errors import ConsistencyError, InputError
-from trackscan.tracking import TrackingSettings, describe_change, track_scan
+from trackscan.model import Change
+from trackscan.tracking import TrackingSettings, describe_change
+from trackscan.tracking import track_scan as _track_scan
+
+
+def track_scan(frames, **kw):
+    """The tracking result in its contract form (what scan.json carries)."""
+    return _track_scan(frames, **kw).to_dict()
 from trackscan.tracking.align import kabsch
 
 _spec = importlib.util.spec_from_file_location("tracking_synthetic",
@@ -38,7 +45,7 @@ def test_fold_ring_opening():
     assert kinds == [("bond_broken", (1, 3)), ("ring_lost", (1, 2, 3))]
     assert ch["structure_type_changed"] is True
     assert ch["resolution"]["resolved"] and ch["resolution"]["margin"] > 1
-    assert describe_change(ch, ["C", "C", "C"]) == "bond path C1–C3 broken; ring CP lost"
+    assert describe_change(Change.from_dict(ch), ["C", "C", "C"]) == "bond path C1–C3 broken; ring CP lost"
     # the bond CP keeps one track while it exists
     tracks = [{cp["id"]: cp["track"] for cp in f["critical_points"]} for f in r["frames"]]
     assert len({t["b3"] for t in tracks[:3]}) == 1
@@ -54,7 +61,7 @@ def test_conflict_switch():
     assert ev["atoms_before"] == [1, 3] and ev["atoms_after"] == [2, 3]
     # C1-H3 and C2-H3 with C1-C2: the same graph up to relabelling
     assert ch["structure_type_changed"] is False
-    assert describe_change(ch, ["C", "C", "H"]) == "bond path C1–H3 switched to C2–H3"
+    assert describe_change(Change.from_dict(ch), ["C", "C", "H"]) == "bond path C1–H3 switched to C2–H3"
 
 
 def test_out_of_order_listing_gives_same_changes():
@@ -174,7 +181,10 @@ def test_resolution_floor_depends_on_each_frames_grid():
     coarse[2]["grid"]["spacing_bohr"] = [0.2, 0.2, 0.2]
     (ch,) = track_scan(coarse)["changes"]
     assert ch["resolution"]["spacing_bohr"] == [0.2, 0.1]
-    assert not ch["resolution"]["resolved"] and ch["mechanism"] == "unresolved"
+    # below the floor the mechanism is kept (read from the approach) and the
+    # change says it is limited by the grid (issue 11)
+    assert not ch["resolution"]["resolved"] and ch["mechanism"] == "fold"
+    assert ch["resolution_limited"] is True
     assert "below the resolution floor" in ch["note"]
 
 
@@ -183,9 +193,9 @@ def test_printed_precision_limits_the_floor():
     for f in frames:
         f["grid"]["significant_digits"] = 3       # steps of 1e-4 at rho ~ 0.08
     (ch,) = track_scan(frames)["changes"]
-    assert ch["mechanism"] == "unresolved"
+    assert ch["mechanism"] == "fold" and ch["resolution_limited"] is True
     (ch,) = track_scan(frames, settings=TrackingSettings(printed_digits=3))["changes"]
-    assert ch["mechanism"] == "unresolved"
+    assert ch["mechanism"] == "fold" and ch["resolution_limited"] is True
 
 
 def test_returning_structure_reuses_its_number():
@@ -296,7 +306,7 @@ def test_open_bond_path_ends_do_not_break_tracking():
     assert not any(e["kind"] == "bond_switched" for c in r["changes"] for e in c["events"])
 
 
-def test_separation_floor_marks_too_close_pairs_unresolved():
+def test_separation_floor_marks_too_close_pairs_resolution_limited():
     # d = 0.01*sqrt(0.5) = 0.0071 bohr in frame 2, with a clear density difference
     frames = S.ring_opening_scan(c=0.01, kappa=1e5)
     (ch,) = track_scan(frames)["changes"]            # 0.1 bohr grid: floor 0.00125 bohr
@@ -307,7 +317,8 @@ def test_separation_floor_marks_too_close_pairs_unresolved():
     (pair,) = ch["resolution"]["pairs"]
     assert pair["separation_bohr"] < pair["separation_floor_bohr"]
     assert pair["rho_difference"] > pair["rho_floor"]
-    assert ch["mechanism"] == "unresolved" and "separation" in ch["note"]
+    assert ch["mechanism"] == "fold" and ch["resolution_limited"] is True
+    assert "separation" in ch["note"]
 
 
 def test_periodic_cp_wrapping_across_the_cell_face_keeps_its_track():
@@ -361,7 +372,7 @@ def test_attractor_fold_with_its_path_rerouted_is_a_fold():
     assert kinds == ["attractor_lost", "bond_broken", "bond_switched"]
     (sw,) = [e for e in ch["events"] if e["kind"] == "bond_switched"]
     assert sw["atoms_before"] == [1, "A1"] and sw["atoms_after"] == [1, 2] and sw["by_fold"]
-    assert describe_change(ch, ["Li", "Li"]) == (
+    assert describe_change(Change.from_dict(ch), ["Li", "Li"]) == (
         "bond path Li2–NNA A1 broken; bond path Li1–NNA A1 switched to Li1–Li2; "
         "non-nuclear attractor lost")
 

@@ -24,16 +24,23 @@ import numpy as np
 
 from trackscan.analysis.cache import cache_key, file_digest, load_entry, store_entry
 from trackscan.errors import InputError
+from trackscan.model import Frame, ScanFormatError
 from trackscan.progress import report
 
 __all__ = ["analyse_frames", "iter_frames", "analyse_cube", "printed_digits",
-           "worker_context"]
+           "worker_context", "check_jobs"]
 
 logger = logging.getLogger(__name__)
 
 #: Modules the fork server imports before forking workers (see worker_context).
 WORKER_MODULES = ("trackscan.io.cube", "trackscan.settings", "trackscan.topology",
                   "trackscan.analysis.runner")
+
+
+def check_jobs(jobs) -> None:
+    """Raise InputError unless `jobs` is a positive integer (``--jobs``)."""
+    if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs < 1:
+        raise InputError(f"--jobs must be at least 1, got {jobs}")
 
 
 def worker_context():
@@ -141,8 +148,9 @@ def analyse_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None,
 
     Returns
     -------
-    list of dict
-        One frame dict per file, in the order of `files`.
+    list of trackscan.model.Frame
+        One frame per file, in the order of `files` (not yet placed in the
+        scan: no value or source).
 
     Raises
     ------
@@ -169,11 +177,10 @@ def iter_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None, prog
 
     Yields
     ------
-    (int, dict)
-        Position of the file in `files`, and its frame dict.
+    (int, trackscan.model.Frame)
+        Position of the file in `files`, and its frame.
     """
-    if jobs < 1:
-        raise InputError(f"--jobs must be at least 1, got {jobs}")
+    check_jobs(jobs)
     files = [os.fspath(f) for f in files]
     for f in files:
         if not os.path.isfile(f):
@@ -188,9 +195,14 @@ def iter_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None, prog
             keys[i] = cache_key(file_digest(f), sdict, periodic=periodic)
             hit = load_entry(cache_dir, keys[i])
             if hit is not None:
-                done += 1
-                yield i, hit
-                continue
+                try:
+                    frame = Frame.from_dict(hit, "cached frame")
+                except ScanFormatError:
+                    logger.warning("ignoring a malformed cache entry for %s", files[i])
+                else:
+                    done += 1
+                    yield i, frame
+                    continue
         todo.append(i)
     where = "a dask scheduler" if dask is not None else f"{jobs} process(es)"
     logger.info("%d of %d frames cached, %d to analyse on %s", done, total, len(todo), where)
@@ -202,7 +214,7 @@ def iter_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None, prog
             store_entry(cache_dir, keys[i], frame)
         done += 1
         report(progress, "analyse frames", done, total, os.path.basename(files[i]))
-        yield i, frame
+        yield i, Frame.from_dict(frame, os.path.basename(files[i]))
 
 
 def _run(calls, *, jobs, dask):

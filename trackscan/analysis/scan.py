@@ -1,4 +1,4 @@
-"""Analyse a whole scan: frames -> topology -> tracking -> the scan.json dict."""
+"""Analyse a whole scan: frames -> topology -> tracking -> the ScanResult."""
 
 from __future__ import annotations
 
@@ -7,13 +7,10 @@ import os
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from pathlib import Path
 
-from trackscan import __version__
 from trackscan.analysis.runner import analyse_frames, worker_context
-from trackscan.analysis.scanjson import SCHEMA
 from trackscan.errors import InputError
 from trackscan.io.manifest import record_generated_frame
 from trackscan.progress import report
-from trackscan.tracking import TrackingSettings, track_scan
 
 __all__ = ["analyze_scan", "ensure_frames"]
 
@@ -89,18 +86,9 @@ def ensure_frames(manifest, *, jobs=1, progress=None) -> str:
     return "cube files"
 
 
-def _recorded_energies(manifest) -> dict:
-    """Energies of generated frames made in this run (the manifest was loaded before)."""
-    from trackscan.io.manifest import read_frame_record
-
-    folder = Path(manifest.frames_directory)
-    return {os.path.normcase(os.path.abspath(folder / r["file"])): r["energy"]
-            for r in read_frame_record(folder) if r.get("energy") is not None}
-
-
 def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None,
-                 dask=None) -> dict:
-    """Analyse every frame of a scan and track it; the scan.json dict.
+                 dask=None):
+    """Analyse every frame of a scan and track it.
 
     Parameters
     ----------
@@ -111,6 +99,7 @@ def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None
     jobs : int
         Worker processes for the frame analyses.
     tracking : TrackingSettings, optional
+        Default: the manifest's ``tracking`` section.
     progress : callable, optional
         Receives ProgressEvent objects.
     dask : str or dask.distributed.Client, optional
@@ -119,51 +108,18 @@ def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None
 
     Returns
     -------
-    dict
-        Per the contract (schema ``trackscan.scan/1``), plus
-        ``early_warnings``, ``bond_tracks``, ``structures`` and ``direction``.
+    trackscan.model.ScanResult
+        Frames made by an earlier refine keep their refine records, and
+        every change its estimate and uncertainty.
     """
-    tracking = tracking or TrackingSettings()
-    if jobs < 1:
-        raise InputError(f"--jobs must be at least 1, got {jobs}")
+    from trackscan.analysis.assemble import assemble_scan, place_frames
+    from trackscan.analysis.runner import check_jobs
+
+    check_jobs(jobs)
     source = ensure_frames(manifest, jobs=jobs, progress=progress)
     cache_dir = None if out_dir is None else Path(out_dir) / ".cache"
     frames = analyse_frames([e.file for e in manifest.frames], manifest.analysis,
                             periodic=manifest.periodic, jobs=jobs, cache_dir=cache_dir,
                             progress=progress, dask=dask)
-    base = manifest.base_dir
-    energies = _recorded_energies(manifest)
-    for entry, frame in zip(manifest.frames, frames):
-        frame["value"] = float(entry.value)
-        frame["source"] = Path(os.path.relpath(entry.file, base)).as_posix()
-        energy = entry.energy if entry.energy is not None else energies.get(
-            os.path.normcase(os.path.abspath(entry.file)))
-        if energy is not None:
-            frame["energy_hartree"] = float(energy)
-    tracked = track_scan(frames, settings=tracking, unit=manifest.coordinate.unit)
-    logger.info("%s: %d frames, %d changes", manifest.name, len(frames), len(tracked["changes"]))
-    scan = {
-        "name": manifest.name,
-        "coordinate": manifest.coordinate.to_dict(),
-        "density_source": source,
-        "settings": manifest.analysis.to_dict(),
-        "tracking": tracked["tracking"],
-        "periodic": bool(manifest.periodic),
-        "trackscan_version": __version__,
-        "direction": tracked["direction"],
-    }
-    if manifest.description:
-        scan["description"] = manifest.description
-    if out_dir is not None:
-        # where the report finds the frames' cubes (frame sources are relative to it)
-        scan["manifest"] = Path(os.path.relpath(manifest.path, out_dir)).as_posix()
-    return {
-        "schema": SCHEMA,
-        "scan": scan,
-        "frames": tracked["frames"],
-        "changes": tracked["changes"],
-        "early_warnings": tracked["early_warnings"],
-        "bond_tracks": tracked["bond_tracks"],
-        "structures": tracked["structures"],
-        "incomplete_frames": tracked["incomplete_frames"],
-    }
+    return assemble_scan(manifest, place_frames(manifest, frames), source=source,
+                         out_dir=out_dir, tracking=tracking)

@@ -15,7 +15,7 @@ from trackscan.io.atomic import write_text_atomic
 
 __all__ = ["SCHEMA", "canonical", "dumps_scan", "write_scan"]
 
-SCHEMA = "trackscan.scan/1"
+from trackscan.model import SCHEMA
 
 
 def canonical(obj):
@@ -37,12 +37,14 @@ def canonical(obj):
     raise TypeError(f"cannot write {type(obj).__name__} to scan.json")
 
 
-def dumps_scan(scan: dict) -> str:
-    """The canonical text of a scan dict (ends with a newline)."""
+def dumps_scan(scan) -> str:
+    """The canonical text of a scan result (a ScanResult or its dict; ends with a newline)."""
+    if hasattr(scan, "to_dict"):
+        scan = scan.to_dict()
     return json.dumps(canonical(scan), sort_keys=True, indent=1, ensure_ascii=False,
                       allow_nan=False) + "\n"
 
 
-def write_scan(path, scan: dict) -> None:
+def write_scan(path, scan) -> None:
     """Write scan.json atomically (temp file + rename)."""
     write_text_atomic(path, dumps_scan(scan))

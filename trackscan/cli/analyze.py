@@ -13,6 +13,7 @@ dask.distributed scheduler instead of local processes.
 
 from __future__ import annotations
 
+import math
 import os
 import sys
 from pathlib import Path
@@ -36,46 +37,69 @@ def add_arguments(parser) -> None:
 
 
 def _bracket(ch, unit) -> str:
-    a, b = ch["bracket"]
+    a, b = ch.bracket
     return f"{a:.6g} → {b:.6g} {unit}".strip()
 
 
-def summary_lines(scan: dict) -> list:
-    """The printed summary of a scan.json dict, as lines."""
-    frames = scan["frames"]
-    elements = [a["element"] for a in frames[0]["atoms"]] if frames else []
-    coord = scan["scan"]["coordinate"]
-    unit = coord.get("unit", "")
-    lines = [f"scan {scan['scan']['name']}: {len(frames)} frames along {coord.get('label', '')}, "
-             f"{len(scan['structures'])} structure(s), {len(scan['changes'])} change(s)"]
-    if not scan["changes"]:
+def _estimate(ch, unit) -> str:
+    """``65.8609 ± 0.0047 °`` with the change's quoted uncertainty."""
+    if ch.estimate is None:
+        return ""
+    u = ch.uncertainty
+    if u is None or u.value is None:
+        return f"{ch.estimate:.6g} {unit}".strip()
+    digits = max(0, -math.floor(math.log10(u.value)) + 1) if u.value > 0 else 6
+    how = u.source if u.source == "bracket" else f"{u.source}: {ch.estimate_method}"
+    return f"{ch.estimate:.{digits}f} ± {u.value:.2g} {unit} ({how})".strip()
+
+
+def change_table(scan) -> list:
+    """The one table of changes that analyze, refine and demo print.
+
+    Columns: number, frames, bracket, estimate ± uncertainty (what sets the
+    ±), mechanism, events.
+    """
+    unit = scan.scan.coordinate.unit if scan.scan.coordinate is not None else ""
+    elements = list(scan.frames[0].elements) if scan.frames else []
+    rows = [("#", "frames", "bracket", "estimate", "mechanism", "events")]
+    for n, ch in enumerate(scan.changes, start=1):
+        mech = ch.mechanism + (" (resolution-limited)" if ch.resolution_limited else "")
+        rows.append((str(n), f"{ch.between[0]}–{ch.between[1]}", _bracket(ch, unit),
+                     _estimate(ch, unit), mech, describe_change(ch, elements)))
+    widths = [max(len(r[i]) for r in rows) for i in range(5)]
+    return ["  ".join(c.ljust(w) for c, w in zip(r[:5], widths)) + "  " + r[5] for r in rows]
+
+
+def summary_lines(scan) -> list:
+    """The printed summary of a :class:`trackscan.model.ScanResult`, as lines."""
+    frames = scan.frames
+    elements = list(frames[0].elements) if frames else []
+    coord = scan.scan.coordinate
+    unit = coord.unit if coord is not None else ""
+    label = coord.label if coord is not None else ""
+    lines = [f"scan {scan.scan.name}: {len(frames)} frames along {label}, "
+             f"{len(scan.structures)} structure(s), {len(scan.changes)} change(s)"]
+    if not scan.changes:
         lines.append("no structural change inside the scan")
     else:
-        rows = [("#", "frames", "bracket", "mechanism", "events")]
-        for n, ch in enumerate(scan["changes"], start=1):
-            rows.append((str(n), f"{ch['between'][0]}–{ch['between'][1]}", _bracket(ch, unit),
-                         ch["mechanism"], describe_change(ch, elements)))
-        widths = [max(len(r[i]) for r in rows) for i in range(4)]
-        for r in rows:
-            lines.append("  ".join(c.ljust(w) for c, w in zip(r[:4], widths)) + "  " + r[4])
-        for n, ch in enumerate(scan["changes"], start=1):
-            if ch.get("note"):
-                lines.append(f"note {n}: {ch['note']}")
-            if ch.get("structure_type_changed") is False:
+        lines += change_table(scan)
+        for n, ch in enumerate(scan.changes, start=1):
+            if ch.note:
+                lines.append(f"note {n}: {ch.note}")
+            if ch.structure_type_changed is False:
                 lines.append(f"note {n}: the structure type is unchanged; only which atoms "
                              "are linked differs")
-    bad = scan.get("incomplete_frames") or []
+    bad = scan.incomplete_frames
     if bad:
         lines.append("warning: frame(s) " + ", ".join(str(k) for k in bad) +
                      " fail Poincaré–Hopf (critical points may be missing); changes next to "
                      "them are unresolved")
-    for w in scan.get("early_warnings", []):
-        lines.append(f"early warning: {w['message']}")
+    for w in scan.early_warnings:
+        lines.append(f"early warning: {w.message}")
     return lines
 
 
 def run(args) -> int:
-    from trackscan.refine.scan import annotate_scan
     from trackscan.report import write_report
 
     manifest = load_manifest(args.manifest)
@@ -83,8 +107,6 @@ def run(args) -> int:
     progress = TextProgress()
     scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress,
                         dask=args.dask)
-    # frames made by an earlier refine keep their estimates and evaluation counts
-    scan = annotate_scan(manifest, scan)
     path = out / "scan.json"
     write_scan(path, scan)
     files = write_report(path, out, source_dir=manifest.base_dir, progress=progress)

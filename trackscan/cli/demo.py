@@ -71,7 +71,15 @@ def _copy_inputs(src: Path, dst: Path) -> None:
 
 
 def _default_tolerance(manifest) -> float:
-    values = sorted({e.value for e in manifest.frames})
+    """A sixth of the smallest step of the listed frames (not the refined ones,
+    so that a rerun asks for the same tolerance and adds no frame)."""
+    from trackscan.analysis.assemble import recorded_frames
+
+    records = recorded_frames(manifest)
+    listed = [e for e in manifest.frames
+              if not isinstance((records.get(os.path.normcase(os.path.abspath(e.file))) or {})
+                                .get("refine"), dict)]
+    values = sorted({e.value for e in listed})
     steps = [b - a for a, b in zip(values, values[1:])]
     return TOLERANCE_FRACTION * min(steps)
 
@@ -104,21 +112,18 @@ def run(args) -> int:
     if args.no_refine:
         scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress)
     else:
-        from trackscan.cli.refine import change_lines
         from trackscan.refine.scan import refine_manifest
 
         tolerance = args.tolerance or _default_tolerance(manifest)
         scan, result = refine_manifest(manifest, tolerance=tolerance, jobs=args.jobs,
                                        out_dir=out, progress=progress)
         refine_lines = [f"refine: {result.message}; {result.total_evaluations} new frame(s)"]
-        if scan["changes"]:
-            refine_lines += change_lines(scan)
     path = out / "scan.json"
     write_scan(path, scan)
     files = write_report(path, out, source_dir=inputs)
     progress.close()
     elapsed = time.perf_counter() - t0
-    print(f"density source: {scan['scan']['density_source']}")
+    print(f"density source: {scan.scan.density_source}")
     for line in summary_lines(scan) + refine_lines:
         print(line)
     print(f"results in {os.fspath(out)}/ ({elapsed:.0f} s):")

@@ -26,6 +26,7 @@ import os
 import sys
 from pathlib import Path
 
+from trackscan.cli.analyze import summary_lines
 from trackscan.io.manifest import load_manifest
 from trackscan.progress import TextProgress
 
@@ -44,28 +45,6 @@ def add_arguments(parser) -> None:
                         help="only print the next values and write their geometries")
     parser.add_argument("--dask", metavar="ADDRESS", default=None,
                         help="dask.distributed scheduler for generator calls and analyses")
-
-
-def _fmt(x) -> str:
-    return f"{x:.6g}"
-
-
-def change_lines(scan: dict) -> list:
-    """Printed table of the refined changes."""
-    unit = scan["scan"]["coordinate"].get("unit", "")
-    if not scan["changes"]:
-        return ["no structural change inside the scan"]
-    rows = [("#", "bracket", "estimate", "method", "new frames", "bisection")]
-    for n, ch in enumerate(scan["changes"], start=1):
-        a, b = ch["bracket"]
-        unc = ch.get("uncertainty") or {}
-        err = unc.get("model_error")
-        est = _fmt(ch["estimate"]) + (f" ± {err:.2g}" if err is not None else "")
-        rows.append((str(n), f"{_fmt(a)} → {_fmt(b)} {unit}".strip(), est, ch["estimate_method"],
-                     str(ch.get("evaluations", 0)),
-                     str((ch.get("refine") or {}).get("bisection_evaluations", ""))))
-    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
-    return ["  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip() for r in rows]
 
 
 def _backend(args):
@@ -111,7 +90,7 @@ def run(args) -> int:
     files = write_report(path, out, source_dir=manifest.base_dir)
     print(f"refine: {result.message}; {result.evaluations} new frame(s) this run, "
           f"{result.total_evaluations} in all")
-    for line in change_lines(scan):
+    for line in summary_lines(scan):
         print(line)
     print(f"wrote {os.fspath(path)} and {os.fspath(files.html)}")
     sys.stdout.flush()

@@ -25,21 +25,14 @@ from trackscan.generators.geometry import (
     CoordinateDrive, TrajectoryDrive, from_internal_unit, value_from_comment,
 )
 from trackscan.io.xyz import read_xyz
+from trackscan.units import UNITS_OF_KIND, canonical_unit
 
 __all__ = ["make_generator", "make_drive", "Generator", "GeneratedFrame", "GeometryOnly", "CoordinateDrive",
            "TrajectoryDrive", "parse_generator_config", "sibling"]
 
-_UNIT_ALIASES = {"angstrom": "angstrom", "å": "angstrom", "a": "angstrom", "ang": "angstrom",
-                 "bohr": "bohr", "degree": "degree", "degrees": "degree", "deg": "degree",
-                 "radian": "radian", "radians": "radian", "rad": "radian"}
-
-
 def _coordinate_unit(kind: str, coordinate) -> str | None:
-    unit = _UNIT_ALIASES.get(str(getattr(coordinate, "unit", "") or "").strip().lower())
-    if unit is None:
-        return None
-    ok = ("angstrom", "bohr") if kind == "distance" else ("degree", "radian")
-    return unit if unit in ok else None
+    unit = canonical_unit(getattr(coordinate, "unit", None))
+    return unit if unit in UNITS_OF_KIND.get(kind, ()) else None
 
 
 def make_drive(geometry: GeometryConfig, *, coordinate=None, manifest=None):

@@ -30,6 +30,7 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
+from trackscan.units import UNITS_OF_KIND, canonical_unit
 from trackscan.coordinates import COORDINATE_KINDS
 from trackscan.io.keycheck import KeyChecker
 
@@ -166,8 +167,9 @@ def _drive(raw, chk: KeyChecker) -> DriveConfig:
         move = tuple(sorted(set(m)))
     unit = None
     if "unit" in raw:
-        unit = chk.string(raw["unit"], f"{key}.unit").strip().lower()
-        allowed = ("angstrom", "bohr") if kind == "distance" else ("degree", "radian")
+        given = chk.string(raw["unit"], f"{key}.unit")
+        unit = canonical_unit(given)
+        allowed = UNITS_OF_KIND[kind]
         if unit not in allowed:
             chk.fail(f"{key}.unit", f"a {kind} is in {' or '.join(allowed)}, got {raw['unit']!r}")
     return DriveConfig(kind, tuple(atoms), move, unit)

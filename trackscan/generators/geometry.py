@@ -35,7 +35,7 @@ from trackscan.coordinates import COORDINATE_KINDS, measure
 from trackscan.elements import symbol
 from trackscan.errors import ConfigError, ConsistencyError, GeneratorError
 from trackscan.io.xyz import XYZFrame
-from trackscan.units import ANGSTROM_IN_BOHR
+from trackscan.units import ANGSTROM_IN_BOHR, angle_factor, length_factor
 
 __all__ = ["COVALENT_RADII", "connectivity", "moving_fragment", "CoordinateDrive",
            "TrajectoryDrive", "kabsch_align", "value_from_comment", "to_internal_unit",
@@ -56,21 +56,11 @@ _DEFAULT_RADIUS = 1.5
 #: covalent radii (a common working choice, not a published constant).
 BOND_SCALE = 1.2
 
-_DISTANCE_UNITS = {"angstrom": ANGSTROM_IN_BOHR, "å": ANGSTROM_IN_BOHR, "a": ANGSTROM_IN_BOHR,
-                   "ang": ANGSTROM_IN_BOHR, "bohr": 1.0, "a0": 1.0, "au": 1.0}
-_ANGLE_UNITS = {"degree": 1.0, "degrees": 1.0, "deg": 1.0, "°": 1.0,
-                "radian": 180.0 / math.pi, "radians": 180.0 / math.pi, "rad": 180.0 / math.pi}
-
-
 def _unit_factor(kind: str, unit: str | None) -> float:
-    table = _DISTANCE_UNITS if kind == "distance" else _ANGLE_UNITS
+    """Internal units (bohr, degrees) per one `unit` (None: angstrom or degree)."""
     if unit is None:
         return 1.0 if kind != "distance" else ANGSTROM_IN_BOHR
-    try:
-        return table[unit.strip().lower()]
-    except KeyError:
-        raise ValueError(f"unit {unit!r} does not fit a {kind}; use one of "
-                         f"{', '.join(sorted({'angstrom', 'bohr'} if kind == 'distance' else {'degree', 'radian'}))}") from None
+    return length_factor(unit) if kind == "distance" else angle_factor(unit)
 
 
 def to_internal_unit(kind: str, value: float, unit: str | None) -> float:

@@ -39,14 +39,13 @@ from pathlib import Path
 
 import yaml
 
-from trackscan.coordinates import (COORDINATE_KINDS, default_tolerance, difference, in_unit,
-                                   measure)
+from trackscan.coordinates import COORDINATE_KINDS, default_tolerance, difference, measure
 from trackscan.errors import ConfigError, InputError, ParseError
 from trackscan.io.atomic import write_text_atomic
 from trackscan.io.cube import DEFAULT_MAX_POINTS, read_cube_header
 from trackscan.io.keycheck import KeyChecker
 from trackscan.settings import AnalysisSettings
-from trackscan.units import BOHR_IN_ANGSTROM
+from trackscan.units import UNITS_OF_KIND, angle_factor, canonical_unit, length_factor
 
 __all__ = ["ScanManifest", "Coordinate", "FrameEntry", "load_manifest",
            "read_frame_record", "record_generated_frame", "generated_frame_name", "RECORD_NAME"]
@@ -91,12 +90,9 @@ class Coordinate:
         if self.kind is None:
             raise ValueError("coordinate has no measured definition")
         v = measure(self.kind, self.atoms, positions)
-        converted = in_unit(self.kind, v, self.unit)
-        if converted is not None:
-            return converted
-        if self.kind == "distance" and self.unit.lower() in ("angstrom", "å", "a", "ang"):
-            return v * BOHR_IN_ANGSTROM
-        return v
+        if self.kind == "distance":
+            return v / length_factor(self.unit)
+        return v / angle_factor(self.unit)
 
     @property
     def check_tolerance(self):
@@ -251,6 +247,9 @@ def _coordinate(data, chk: KeyChecker) -> Coordinate:
     unit = chk.string(data["unit"], "coordinate.unit") if "unit" in data else default_unit
     if not unit:
         chk.fail("coordinate.unit", "required when the coordinate has no measured definition")
+    if kind and canonical_unit(unit) not in UNITS_OF_KIND[kind]:
+        chk.fail("coordinate.unit", f"a measured {kind} is in "
+                                    f"{' or '.join(UNITS_OF_KIND[kind])}, got {unit!r}")
     if "label" in data:
         label = chk.string(data["label"], "coordinate.label")
     elif kind:
@@ -425,7 +424,9 @@ def record_generated_frame(manifest, entry: dict) -> Path:
 
 def generated_frame_name(value: float) -> str:
     """File name of a generated frame at coordinate `value` (stable, sortable)."""
-    return f"frame_{value:+.6f}.cube".replace("+", "p").replace("-", "m")
+    from trackscan.model import VALUE_DECIMALS
+
+    return f"frame_{value:+.{VALUE_DECIMALS}f}.cube".replace("+", "p").replace("-", "m")
 
 
 def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:

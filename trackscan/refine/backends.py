@@ -17,6 +17,7 @@ from __future__ import annotations
 import logging
 from concurrent.futures import ProcessPoolExecutor, as_completed
 
+from trackscan.analysis.runner import check_jobs
 from trackscan.errors import InputError
 
 __all__ = ["LocalBackend", "DaskBackend", "make_backend", "generate_one"]
@@ -47,8 +48,7 @@ class LocalBackend:
     """
 
     def __init__(self, jobs: int = 1):
-        if jobs < 1:
-            raise InputError(f"--jobs must be at least 1, got {jobs}")
+        check_jobs(jobs)
         self.jobs = jobs
 
     def describe(self) -> str:

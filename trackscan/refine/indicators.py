@@ -56,7 +56,7 @@ class FoldSide:
     tracks: tuple
 
 
-def fold_side(change: dict) -> FoldSide | None:
+def fold_side(change) -> FoldSide | None:
     """The present side of a fold change, or None for other mechanisms.
 
     Parameters
@@ -75,24 +75,23 @@ def fold_side(change: dict) -> FoldSide | None:
     """
     if not is_fold(change):
         return None
-    pairs = (change.get("resolution") or {}).get("pairs") or []
-    pairs = [p for p in pairs if p.get("tracks") and p.get("frame") is not None]
+    pairs = change.resolution.pairs if change.resolution is not None else ()
+    pairs = [p for p in pairs if p.tracks and p.frame is not None]
     if not pairs:
         return None
-    pair = min(pairs, key=lambda p: (_num(p.get("separation_bohr")), str(p["tracks"])))
-    k0, k1 = change["between"]
-    v0, v1 = change["bracket"]
-    if pair["frame"] == k0:
-        return FoldSide(float(v0), float(v1), int(k0), -1, tuple(pair["tracks"]))
-    if pair["frame"] == k1:
-        return FoldSide(float(v1), float(v0), int(k1), +1, tuple(pair["tracks"]))
+    pair = min(pairs, key=lambda p: (_num(p.separation_bohr), str(list(p.tracks))))
+    k0, k1 = change.between
+    v0, v1 = change.bracket
+    if pair.frame == k0:
+        return FoldSide(float(v0), float(v1), int(k0), -1, tuple(pair.tracks))
+    if pair.frame == k1:
+        return FoldSide(float(v1), float(v0), int(k1), +1, tuple(pair.tracks))
     return None
 
 
-def is_fold(change: dict) -> bool:
+def is_fold(change) -> bool:
     """True for a fold change, resolved or not."""
-    mech = change.get("mechanism")
-    return mech == "fold" or (mech == "unresolved" and change.get("mechanism_candidate") == "fold")
+    return change.mechanism_evidence == "fold"
 
 
 def _num(x) -> float:
@@ -117,8 +116,8 @@ def position_error(cp, frame, *, gtol: float) -> float:
     if lam is None or lam == 0:
         return math.inf
     g_err = gtol
-    if "grid" in str(frame.get("field", "grid")):
-        h = max((frame.get("grid") or {}).get("spacing_bohr") or [math.nan])
+    if "grid" in str(frame.field if frame.field is not None else "grid"):
+        h = frame.grid.max_spacing if frame.grid is not None else math.nan
         floor = interpolation_floor(float(h))
         if floor > 0:
             g_err += floor / float(h)
@@ -126,7 +125,7 @@ def position_error(cp, frame, *, gtol: float) -> float:
 
 
 def _soft_eigenvalue(cp) -> float | None:
-    ev = cp.get("eigenvalues")
+    ev = cp.eigenvalues
     if not ev:
         return None
     return float(min(ev, key=abs))
@@ -137,7 +136,7 @@ def fold_samples(frames, side: FoldSide, *, gtol: float = DEFAULT_GTOL) -> list:
 
     Parameters
     ----------
-    frames : sequence of dict
+    frames : sequence of trackscan.model.Frame
         Tracked frames in scan order (``track`` on every critical point).
     side : FoldSide
     gtol : float
@@ -153,19 +152,18 @@ def fold_samples(frames, side: FoldSide, *, gtol: float = DEFAULT_GTOL) -> list:
     out = []
     k = side.present_index
     while 0 <= k < len(frames):
-        by_track = {cp.get("track"): cp for cp in frames[k].get("critical_points") or []}
+        by_track = {cp.track: cp for cp in frames[k].critical_points}
         a, b = (by_track.get(t) for t in side.tracks)
         if a is None or b is None:
             break
-        pa = np.asarray(a["position_bohr"], dtype=float)
-        pb = np.asarray(b["position_bohr"], dtype=float)
+        pa, pb = a.position, b.position
         d2 = float(np.dot(pa - pb, pa - pb))
         la, lb = _soft_eigenvalue(a), _soft_eigenvalue(b)
         lam2 = abs(la * lb) if la is not None and lb is not None else None
         sa = position_error(a, frames[k], gtol=gtol)
         sb = position_error(b, frames[k], gtol=gtol)
         err = 2.0 * math.sqrt(d2) * math.hypot(sa, sb)
-        out.append(FoldSample(float(frames[k]["value"]), d2, lam2, err))
+        out.append(FoldSample(float(frames[k].value), d2, lam2, err))
         k += side.step
     return out
 
@@ -192,63 +190,61 @@ class ConflictSpec:
     between: tuple
 
 
-def is_conflict(change: dict) -> bool:
+def is_conflict(change) -> bool:
     """True for a conflict change, resolved or not."""
-    mech = change.get("mechanism")
-    return mech == "conflict" or (mech == "unresolved"
-                                  and change.get("mechanism_candidate") == "conflict")
+    return change.mechanism_evidence == "conflict"
 
 
-def conflict_spec(change: dict) -> ConflictSpec | None:
+def conflict_spec(change) -> ConflictSpec | None:
     """The switching bond path of a conflict with one switch between atoms."""
     if not is_conflict(change):
         return None
-    sw = [e for e in change.get("events") or [] if e.get("kind") == "bond_switched"]
+    sw = [e for e in change.events if e.kind == "bond_switched"]
     if len(sw) != 1:
         return None
-    before, after = list(sw[0].get("atoms_before") or []), list(sw[0].get("atoms_after") or [])
+    before, after = list(sw[0].atoms_before or []), list(sw[0].atoms_after or [])
     old = [a for a in before if a not in after]
     new = [a for a in after if a not in before]
     if len(old) != 1 or len(new) != 1 or not all(isinstance(a, int) for a in old + new):
         return None
-    return ConflictSpec(str(sw[0]["track"]), old[0], new[0], tuple(change["between"]))
+    return ConflictSpec(str(sw[0].track), old[0], new[0], tuple(change.between))
 
 
 def _atom_position(frame, number):
-    atoms = frame.get("atoms") or []
+    atoms = frame.atoms
     if not 1 <= number <= len(atoms):
         return None
-    return np.asarray(atoms[number - 1]["position_bohr"], dtype=float)
+    return np.asarray(atoms[number - 1].position_bohr, dtype=float)
 
 
 def _switch_geometry(frame, spec: ConflictSpec):
     """(path toward the switching end, c, e, c's eigenvalues) in one frame, or None."""
-    cps = frame.get("critical_points") or []
-    b = next((cp for cp in cps if cp.get("track") == spec.track), None)
+    cps = frame.critical_points
+    b = next((cp for cp in cps if cp.track == spec.track), None)
     x, y = _atom_position(frame, spec.old), _atom_position(frame, spec.new)
     if b is None or x is None or y is None:
         return None
-    path = next((p for p in frame.get("bond_paths") or [] if p.get("cp") == b.get("id")), None)
-    if path is None or len(path.get("points_bohr") or []) < 3:
+    path = next((p for p in frame.bond_paths if p.cp == b.id), None)
+    if path is None or len(path.points_bohr or ()) < 3:
         return None
-    ends = sorted([spec.old, spec.new])
-    by_id = {cp.get("id"): cp for cp in cps}
-    cands = [by_id.get(p.get("cp")) for p in frame.get("bond_paths") or []
-             if sorted(p.get("atoms") or []) == ends]
-    cands = [c for c in cands if c is not None and c.get("eigenvectors")]
+    ends = [spec.old, spec.new]
+    by_id = {cp.id: cp for cp in cps}
+    cands = [by_id.get(p.cp) for p in frame.bond_paths
+             if None not in p.ends and sorted(p.ends, key=str) == sorted(ends, key=str)]
+    cands = [c for c in cands if c is not None and c.eigenvectors]
     if not cands:
         return None
-    pb = np.asarray(b["position_bohr"], dtype=float)
-    c = min(cands, key=lambda cp: float(np.linalg.norm(np.asarray(cp["position_bohr"]) - pb)))
-    pc = np.asarray(c["position_bohr"], dtype=float)
-    e = np.asarray(c["eigenvectors"][2], dtype=float)
+    pb = b.position
+    c = min(cands, key=lambda cp: float(np.linalg.norm(cp.position - pb)))
+    pc = c.position
+    e = np.asarray(c.eigenvectors[2], dtype=float)
     if np.dot(e, y - x) < 0:
         e = -e
-    pts = np.asarray(path["points_bohr"], dtype=float)
+    pts = np.asarray(path.points_bohr, dtype=float)
     i = int(np.argmin(np.linalg.norm(pts - pb, axis=1)))
     # walk from the bond CP towards the polyline end nearer the intervening point
     tail = pts[i:] if np.linalg.norm(pts[-1] - pc) < np.linalg.norm(pts[0] - pc) else pts[i::-1]
-    return tail, pc, e, tuple(float(x) for x in c["eigenvalues"])
+    return tail, pc, e, tuple(float(x) for x in c.eigenvalues)
 
 
 def _closest_point(points, target):
@@ -267,7 +263,7 @@ def path_offset(frame, spec: ConflictSpec):
 
     Parameters
     ----------
-    frame : dict
+    frame : trackscan.model.Frame
         A tracked frame with bond path polylines.
     spec : ConflictSpec
 
@@ -322,7 +318,7 @@ def conflict_samples(frames, spec: ConflictSpec, *, per_side: int = 3) -> list:
             g = path_offset(frames[k], spec)
             if g is None:
                 break
-            out.append(SignedSample(float(frames[k]["value"]), g))
+            out.append(SignedSample(float(frames[k].value), g))
             k += step
             n += 1
     return out

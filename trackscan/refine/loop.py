@@ -1,22 +1,26 @@
 """The refine loop: propose values, compute frames there, track again, repeat.
 
-The loop knows frame dicts and changes only; where frames come from is the
-caller's `evaluate` callback (a generator with a cube on disk and a record
-entry written before it returns, or an analytic field in a test).  All the
-loop's state lives in the frames themselves: a frame made by refinement
-carries a ``refine`` mapping (round, method, model uncertainty, expected
-side), so an interrupted refine that is restarted with the frames computed so
+The loop knows model frames and changes only (:mod:`trackscan.model`);
+where frames come from is the caller's `evaluate` callback (a generator with
+a cube on disk and a record entry written before it returns, or an analytic
+field in a test).  All the loop's state lives in the frames themselves: a
+frame made by refinement carries a ``refine`` record
+(:class:`trackscan.model.ProbeRecord`: round, method, model estimate,
+expected side), so an interrupted refine that is restarted with the frames computed so
 far makes exactly the proposals it would have made next, and repeats no
 calculation.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import logging
 import math
 from dataclasses import dataclass, field
 
+from trackscan.analysis.runner import check_jobs
 from trackscan.errors import InputError
+from trackscan.model import ProbeRecord
 from trackscan.progress import report
 from trackscan.refine.crossing import CROSSING, propose_crossing
 from trackscan.refine.indicators import (
@@ -64,7 +68,7 @@ class ChangeContext:
 
     Attributes
     ----------
-    change : dict
+    change : trackscan.model.Change
     width : float
     base : tuple of float
         The bracket formed by the nearest frames not made by refinement.
@@ -76,7 +80,7 @@ class ChangeContext:
         All refine records inside `base`, grouped by round (oldest first).
     """
 
-    change: dict
+    change: object
     width: float
     base: tuple
     evaluations: int
@@ -90,9 +94,9 @@ class RefineResult:
 
     Attributes
     ----------
-    tracked : dict
-        The last tracking result (``frames``, ``changes``, ...).
-    frames : list of dict
+    tracked : trackscan.tracking.TrackingResult
+        The last tracking result.
+    frames : list of trackscan.model.Frame
         Every frame, untracked, in the order evaluated.
     evaluations : int
         Frames computed by this call.
@@ -101,22 +105,31 @@ class RefineResult:
     rounds : int
     converged : bool
         Every change bracket is at most the tolerance.
+    limited : bool
+        The loop stopped because the brackets left open are below what the
+        grids resolve (``message`` gives the limit).
     message : str
         Why the loop stopped.
     """
 
-    tracked: dict
+    tracked: object
     frames: list
     evaluations: int = 0
     total_evaluations: int = 0
     rounds: int = 0
     converged: bool = False
+    limited: bool = False
     message: str = ""
     history: list = field(default_factory=list)
 
 
 def _is_refined(frame) -> bool:
-    return isinstance(frame.get(REFINE_KEY), dict)
+    return frame.refine is not None
+
+
+def _record(frame) -> dict:
+    """A frame's refine record as a dict, with its value."""
+    return dict(frame.refine.to_dict(), value=float(frame.value))
 
 
 def change_context(frames, change) -> ChangeContext:
@@ -124,22 +137,21 @@ def change_context(frames, change) -> ChangeContext:
 
     Parameters
     ----------
-    frames : sequence of dict
+    frames : sequence of trackscan.model.Frame
         Tracked frames in scan order.
-    change : dict
+    change : trackscan.model.Change
     """
-    v0, v1 = (float(x) for x in change["bracket"])
+    v0, v1 = (float(x) for x in change.bracket)
     lo, hi = min(v0, v1), max(v0, v1)
-    base_vals = sorted(float(f["value"]) for f in frames if not _is_refined(f))
+    base_vals = sorted(float(f.value) for f in frames if not _is_refined(f))
     below = [v for v in base_vals if v <= lo]
     above = [v for v in base_vals if v >= hi]
     b_lo = below[-1] if below else lo
     b_hi = above[0] if above else hi
-    inside = [f for f in frames if _is_refined(f) and b_lo < float(f["value"]) < b_hi]
+    inside = [f for f in frames if _is_refined(f) and b_lo < float(f.value) < b_hi]
     groups: dict = {}
     for f in inside:
-        groups.setdefault(int(f[REFINE_KEY].get("round", 0)), []).append(
-            dict(f[REFINE_KEY], value=float(f["value"])))
+        groups.setdefault(int(f.refine.round or 0), []).append(_record(f))
     rounds = [sorted(groups[r], key=lambda rec: rec["value"]) for r in sorted(groups)]
     last = rounds[-1] if rounds else []
     base = (b_lo, b_hi) if v0 <= v1 else (b_hi, b_lo)
@@ -148,7 +160,7 @@ def change_context(frames, change) -> ChangeContext:
 
 def _stale(ctx: ChangeContext):
     """The bracket end every recent round left in place, and for how many rounds."""
-    v0, v1 = (float(x) for x in ctx.change["bracket"])
+    v0, v1 = (float(x) for x in ctx.change.bracket)
     lo, hi = min(v0, v1), max(v0, v1)
     side, count = None, 0
     for recs in reversed(ctx.rounds):
@@ -170,7 +182,7 @@ def _surprised(ctx: ChangeContext, side) -> bool:
     `side` is the change's FoldSide (expectations ``present``/``absent``), or
     None for value-based expectations (``below``/``above`` the change).
     """
-    v0, v1 = (float(x) for x in ctx.change["bracket"])
+    v0, v1 = (float(x) for x in ctx.change.bracket)
     lo = min(v0, v1)
     for rec in ctx.last:
         if rec.get("method") not in MODEL_METHODS or not rec.get("expected"):
@@ -202,7 +214,7 @@ def propose_for_change(tracked_frames, ctx: ChangeContext, *, tolerance: float, 
     atoms: path-offset interpolation; anything else: bisection.
     """
     ch = ctx.change
-    v0, v1 = (float(x) for x in ch["bracket"])
+    v0, v1 = (float(x) for x in ch.bracket)
     lo, hi = min(v0, v1), max(v0, v1)
     common = dict(tol=tolerance, n=n, evaluations=ctx.evaluations,
                   initial_width=abs(ctx.base[1] - ctx.base[0]),
@@ -215,7 +227,7 @@ def propose_for_change(tracked_frames, ctx: ChangeContext, *, tolerance: float, 
     side = fold_side(ch)
     if side is None:
         why = ("tracking recorded no fold pair" if is_fold(ch) else
-               f"no indicator for a {ch.get('mechanism')} change")
+               f"no indicator for a {ch.mechanism} change")
         return propose_bisection(lo, hi, n, reason=why)
     samples = fold_samples(tracked_frames, side, gtol=gtol)
     return propose_fold(side.present, side.absent, samples,
@@ -223,12 +235,12 @@ def propose_for_change(tracked_frames, ctx: ChangeContext, *, tolerance: float, 
 
 
 def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 1,
-               budget: int | None = None, gtol: float = DEFAULT_GTOL) -> list:
+               budget: int | None = None, gtol: float = DEFAULT_GTOL, skip=()) -> list:
     """The probes of one round of refinement.
 
     Parameters
     ----------
-    tracked : dict
+    tracked : trackscan.tracking.TrackingResult
         Result of :func:`trackscan.tracking.track_scan`.
     tolerance : float
         Target bracket width (coordinate units).
@@ -241,16 +253,18 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
     gtol : float
         Gradient tolerance of the critical-point search (position errors of
         the fold samples).
+    skip : collection of tuple
+        Brackets of changes not to refine (limited by grid resolution).
 
     Returns
     -------
     list of Probe
         Sorted by value; empty when every bracket is at most `tolerance`.
     """
-    frames = tracked["frames"]
-    existing = {round(float(f["value"]), DECIMALS) for f in frames}
-    contexts = [change_context(frames, ch) for ch in tracked["changes"]]
-    open_ = [c for c in contexts if c.width > tolerance]
+    frames = tracked.frames
+    existing = {round(float(f.value), DECIMALS) for f in frames}
+    contexts = [change_context(frames, ch) for ch in tracked.changes]
+    open_ = [c for c in contexts if c.width > tolerance and tuple(c.change.bracket) not in skip]
     if not open_:
         return []
     slots = allocate_slots([c.width / tolerance for c in open_], jobs)
@@ -259,7 +273,7 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
         if n == 0:
             continue
         prop = propose_for_change(frames, ctx, tolerance=tolerance, n=n, gtol=gtol)
-        logger.info("bracket %s: %s %s (%s)", ctx.change["bracket"], prop.method,
+        logger.info("bracket %s: %s %s (%s)", list(ctx.change.bracket), prop.method,
                     list(prop.values), prop.reason)
         expected = prop.expected or (None,) * len(prop.values)
         for v, e in zip(prop.values, expected):
@@ -267,7 +281,8 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
                 continue
             existing.add(v)
             meta = {"round": int(round_number), "method": prop.method,
-                    "bracket": [float(x) for x in ctx.change["bracket"]]}
+                    "bracket": [float(x) for x in ctx.change.bracket],
+                    "tolerance": float(tolerance)}
             if prop.method in MODEL_METHODS:
                 if prop.delta is not None:
                     meta["delta"] = float(prop.delta)
@@ -282,6 +297,20 @@ def plan_round(tracked, *, tolerance: float, jobs: int = 1, round_number: int = 
     return probes
 
 
+def _resolution_limits(tracked, *, tolerance: float, gtol: float) -> dict:
+    """Bracket -> grid-resolution limit of the open changes new frames cannot narrow."""
+    from trackscan.refine.estimates import annotate_changes, resolution_limit
+
+    out = {}
+    for ch in annotate_changes(tracked.frames, tracked.changes, gtol=gtol):
+        if ch.width <= tolerance:
+            continue
+        lim = resolution_limit(ch)
+        if lim is not None:
+            out[tuple(ch.bracket)] = lim
+    return out
+
+
 def check_options(*, tolerance, max_evaluations=None, jobs=1) -> None:
     """Raise InputError for a tolerance, budget or job count refine cannot use."""
     if isinstance(tolerance, bool) or not isinstance(tolerance, (int, float)) \
@@ -290,8 +319,7 @@ def check_options(*, tolerance, max_evaluations=None, jobs=1) -> None:
                          f"are rounded to {DECIMALS} decimals), got {tolerance!r}")
     if max_evaluations is not None and max_evaluations < 0:
         raise InputError(f"--max-evaluations must be >= 0, got {max_evaluations}")
-    if jobs < 1:
-        raise InputError(f"--jobs must be at least 1, got {jobs}")
+    check_jobs(jobs)
 
 
 def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | None = None,
@@ -301,12 +329,13 @@ def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | 
 
     Parameters
     ----------
-    frames : sequence of dict
-        Analysed frame dicts with ``value`` (any order).  Frames made by an
+    frames : sequence of trackscan.model.Frame
+        Analysed frames with ``value`` (any order).  Frames made by an
         earlier refine carry their ``refine`` record.
     evaluate : callable
-        ``evaluate(probes) -> list of frame dicts``, one per :class:`Probe`,
-        each with ``value`` set and ``refine`` equal to the probe's meta.  It
+        ``evaluate(probes) -> list of Frame``, one per :class:`Probe`, each
+        with ``value`` set (``refine`` is set here from the probe's meta
+        when the frame lacks it).  It
         must persist each frame before returning (that makes the loop
         resumable) and may compute them in parallel.
     tolerance : float
@@ -318,7 +347,8 @@ def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | 
     jobs : int
         Values per round.
     track : callable, optional
-        ``track(frames) -> dict``; default :func:`trackscan.tracking.track_scan`.
+        ``track(frames) -> TrackingResult``; default
+        :func:`trackscan.tracking.track_scan`.
     gtol : float
         Gradient tolerance the frames were analysed with.
     progress : callable, optional
@@ -337,33 +367,43 @@ def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | 
     if track is None:
         from trackscan.tracking import track_scan as track
     frames = list(frames)
-    values = [float(f["value"]) for f in frames]
+    values = [float(f.value) for f in frames]
     descending = len(values) > 1 and all(a > b for a, b in zip(values, values[1:]))
     inner_track = track
 
     def track(fr):
         # keep the scan's own direction when frames are appended
-        return inner_track(sorted(fr, key=lambda f: float(f["value"]), reverse=descending))
+        return inner_track(sorted(fr, key=lambda f: float(f.value), reverse=descending))
 
     done_before = sum(1 for f in frames if _is_refined(f))
-    rounds_before = max((int(f[REFINE_KEY].get("round", 0)) for f in frames if _is_refined(f)),
+    rounds_before = max((int(f.refine.round or 0) for f in frames if _is_refined(f)),
                         default=0)
     result = RefineResult(tracked=track(frames), frames=frames, total_evaluations=done_before)
     round_number = rounds_before
     while True:
         budget = None if max_evaluations is None else max_evaluations - result.total_evaluations
-        widths = [abs(c["bracket"][1] - c["bracket"][0]) for c in result.tracked["changes"]]
+        widths = [c.width for c in result.tracked.changes]
+        limits = _resolution_limits(result.tracked, tolerance=tolerance, gtol=gtol)
         if all(w <= tolerance for w in widths):
             result.converged = True
             result.message = ("no structural change to refine" if not widths else
                               f"every bracket is at most {tolerance:g}")
+            break
+        if all(w <= tolerance or tuple(c.bracket) in limits
+               for w, c in zip(widths, result.tracked.changes)):
+            worst = max(limits.values())
+            result.limited = True
+            result.message = (f"limited by grid resolution: ±{worst:.2g} (brackets the grids "
+                              f"resolve at best; --tolerance {tolerance:g} is met as far as "
+                              "they allow)")
             break
         if budget is not None and budget <= 0:
             result.message = f"evaluation budget of {max_evaluations} spent"
             break
         round_number += 1
         probes = plan_round(result.tracked, tolerance=tolerance, jobs=jobs,
-                            round_number=round_number, budget=budget, gtol=gtol)
+                            round_number=round_number, budget=budget, gtol=gtol,
+                            skip=set(limits))
         if not probes:
             result.message = "no new value can be proposed (brackets at the value resolution)"
             break
@@ -372,9 +412,10 @@ def refine_frames(frames, *, evaluate, tolerance: float, max_evaluations: int | 
         new = list(evaluate(probes))
         if len(new) != len(probes):
             raise ValueError(f"evaluate returned {len(new)} frames for {len(probes)} probes")
-        for p, f in zip(probes, new):
-            f.setdefault(REFINE_KEY, dict(p.meta))
-            if f.get("complete") is False:
+        for i, (p, f) in enumerate(zip(probes, new)):
+            if f.refine is None:
+                new[i] = f = dataclasses.replace(f, refine=ProbeRecord.from_dict(p.meta))
+            if f.complete is False:
                 logger.warning("the new frame at %g fails Poincare-Hopf: its critical points "
                                "may be incomplete, and the bracket decided from it with them",
                                p.value)

@@ -43,6 +43,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+from trackscan.model import VALUE_DECIMALS
+
 __all__ = ["FoldSample", "FoldFit", "Proposal", "bisection_count", "bisection_points",
            "fit_fold", "keeps_guarantee", "allowance_left", "section_rounds", "propose_bisection", "propose_fold", "allocate_slots",
            "BISECTION", "FOLD", "DECIMALS", "ALLOWANCE"]
@@ -51,8 +53,8 @@ BISECTION = "bisection"
 FOLD = "fold-extrapolation"
 
 #: Proposed values are rounded to this many decimals (the resolution of
-#: generated frame names, ``frame_p1.234567.cube``).
-DECIMALS = 6
+#: generated frame names, ``frame_p1.234567.cube``; defined in the model).
+DECIMALS = VALUE_DECIMALS
 
 #: Worst-case allowance of the model steps, in rounds beyond plain
 #: (n+1)-section of the initial bracket (see :func:`keeps_guarantee`).  No

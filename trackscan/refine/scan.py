@@ -2,8 +2,9 @@
 
 ``refine_manifest(manifest, tolerance=...)`` analyses the scan's frames,
 runs the refine loop (:func:`trackscan.refine.loop.refine_frames`) with the
-manifest's generator, and returns the scan.json dict with every change's
-estimate, method, evaluations and uncertainty.  Each new cube is written
+manifest's generator, and returns the :class:`trackscan.model.ScanResult`
+built from the frames the loop holds, with every change's estimate, method,
+evaluations and uncertainty.  Each new cube is written
 to the frames folder and entered in its ``record.json``
 (:func:`trackscan.io.manifest.record_generated_frame`, atomic) before the loop takes its next
 step, so a refine that stops half way (an error, a killed job) resumes where
@@ -25,13 +26,13 @@ from pathlib import Path
 
 from trackscan.errors import InputError
 from trackscan.io.atomic import write_text_atomic
-from trackscan.io.manifest import generated_frame_name, read_frame_record, record_generated_frame
+from trackscan.io.manifest import generated_frame_name, record_generated_frame
 from trackscan.refine.backends import LocalBackend
-from trackscan.refine.estimates import annotate_changes
+from trackscan.analysis.assemble import assemble_scan, place_frame, place_frames
 from trackscan.refine.loop import REFINE_KEY, check_options, plan_round, refine_frames
-from trackscan.refine.proposals import DECIMALS
+from trackscan.model import round_value
 
-__all__ = ["record_generated_frame", "annotate_scan", "refine_manifest", "suggest_values", "load_frames",
+__all__ = ["record_generated_frame", "refine_manifest", "suggest_values", "load_frames",
            "SUGGESTIONS_NAME"]
 
 logger = logging.getLogger(__name__)
@@ -40,71 +41,48 @@ logger = logging.getLogger(__name__)
 SUGGESTIONS_NAME = "suggested.json"
 
 
-def _key(value) -> float:
-    return round(float(value), DECIMALS)
-
-
-def _recorded_meta(manifest) -> dict:
-    """Refine records of generated frames, by resolved cube path."""
-    folder = Path(manifest.frames_directory)
-    out = {}
-    for rec in read_frame_record(folder):
-        if isinstance(rec.get(REFINE_KEY), dict):
-            out[os.path.normcase(os.path.abspath(folder / rec["file"]))] = rec[REFINE_KEY]
-    return out
-
-
 def _suggested_meta(folder) -> dict:
     path = Path(folder) / SUGGESTIONS_NAME if folder is not None else None
     if path is None or not path.is_file():
         return {}
     try:
         data = json.loads(path.read_text(encoding="utf-8"))
-        return {_key(s["value"]): s[REFINE_KEY] for s in data["suggestions"]}
+        return {round_value(s["value"]): s[REFINE_KEY] for s in data["suggestions"]}
     except (ValueError, KeyError, TypeError):
         logger.warning("ignoring a broken list of suggestions %s", path)
         return {}
 
 
-def _describe_frames(manifest, entries, frames, *, suggested=None):
-    base = manifest.base_dir
-    meta = _recorded_meta(manifest)
-    suggested = suggested or {}
-    for entry, frame in zip(entries, frames):
-        frame["value"] = float(entry.value)
-        frame["source"] = Path(os.path.relpath(entry.file, base)).as_posix()
-        if entry.energy is not None:
-            frame["energy_hartree"] = float(entry.energy)
-        m = meta.get(os.path.normcase(os.path.abspath(entry.file))) or suggested.get(
-            _key(entry.value))
-        if m is not None:
-            frame[REFINE_KEY] = dict(m)
-    return frames
-
-
 def load_frames(manifest, *, backend=None, cache_dir=None, suggested_dir=None,
                 progress=None) -> list:
-    """Analysed frame dicts of every frame of the manifest (cached).
+    """Placed frames of every frame of the manifest (analysed, cached).
 
     Frames listed by value only are generated first
     (:func:`trackscan.analysis.scan.ensure_frames`); recorded refine frames
-    get their ``refine`` bookkeeping back.
+    get their ``refine`` bookkeeping back
+    (:func:`trackscan.analysis.assemble.place_frames`).
+
+    Returns
+    -------
+    source : str
+        The density source, in words.
+    frames : list of trackscan.model.Frame
     """
     from trackscan.analysis.scan import ensure_frames
 
     backend = backend or LocalBackend()
-    ensure_frames(manifest, progress=progress)
-    entries = list(manifest.frames)
-    frames = backend.analyse([e.file for e in entries], manifest.analysis,
+    source = ensure_frames(manifest, progress=progress)
+    frames = backend.analyse([e.file for e in manifest.frames], manifest.analysis,
                              periodic=manifest.periodic, cache_dir=cache_dir, progress=progress)
-    return _describe_frames(manifest, entries, frames, suggested=_suggested_meta(suggested_dir))
+    return source, place_frames(manifest, frames, suggested=_suggested_meta(suggested_dir))
 
 
 def _track(manifest):
     from trackscan.tracking import track_scan
 
     def track(frames):
-        return track_scan(frames, unit=manifest.coordinate.unit)
+        return track_scan(frames, settings=getattr(manifest, "tracking", None),
+                          unit=manifest.coordinate.unit)
     return track
 
 
@@ -132,8 +110,8 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
 
     Returns
     -------
-    scan : dict
-        scan.json content, changes annotated
+    scan : trackscan.model.ScanResult
+        Built from the frames the loop holds; changes annotated
         (:func:`trackscan.refine.estimates.annotate_changes`) and
         ``scan.refine`` summarising the run.
     result : RefineResult
@@ -145,9 +123,7 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
     GeneratorError
         A generator call failed; frames finished before it stay recorded.
     """
-    from trackscan.analysis import analyze_scan
     from trackscan.generators import make_generator
-    from trackscan.io.manifest import load_manifest
 
     check_options(tolerance=tolerance, max_evaluations=max_evaluations, jobs=jobs)
     if generator is None:
@@ -162,7 +138,8 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
     backend = backend or LocalBackend(jobs)
     cache_dir = None if out_dir is None else Path(out_dir) / ".cache"
     folder = Path(manifest.frames_directory)
-    frames = load_frames(manifest, backend=backend, cache_dir=cache_dir, progress=progress)
+    source, frames = load_frames(manifest, backend=backend, cache_dir=cache_dir,
+                                 progress=progress)
 
     def evaluate(probes):
         tasks = [(p.value, os.fspath(folder / generated_frame_name(p.value)), os.fspath(folder))
@@ -185,58 +162,18 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
             raise errors[0]
         new = backend.analyse([t[1] for t in tasks], manifest.analysis,
                               periodic=manifest.periodic, cache_dir=cache_dir)
-        for p, t, out, f in zip(probes, tasks, made, new):
-            f["value"] = float(p.value)
-            f["source"] = Path(os.path.relpath(t[1], manifest.base_dir)).as_posix()
-            if out.energy is not None:
-                f["energy_hartree"] = float(out.energy)
-            f[REFINE_KEY] = dict(p.meta)
-        return new
+        return [place_frame(f, value=p.value, file=t[1], base_dir=manifest.base_dir,
+                            energy=out.energy, refine=p.meta)
+                for p, t, out, f in zip(probes, tasks, made, new)]
 
     result = refine_frames(frames, evaluate=evaluate, tolerance=tolerance,
                            max_evaluations=max_evaluations, jobs=jobs, track=_track(manifest),
                            gtol=manifest.analysis.gtol, progress=progress)
-    final = load_manifest(manifest.path)
-    # every frame is in the cache by now (with an out_dir): this only tracks and assembles
-    scan = analyze_scan(final, out_dir=out_dir, jobs=jobs if isinstance(backend, LocalBackend)
-                        else 1, progress=progress)
-    scan = annotate_scan(final, scan, tolerance=tolerance)
-    scan["scan"]["refine"] = {"tolerance": float(tolerance), "max_evaluations": max_evaluations,
-                              "evaluations": result.total_evaluations,
-                              "converged": result.converged, "message": result.message}
+    # the summary is read off the frames (as a later analyze does), so the
+    # same frames give the same scan.json whichever command wrote it
+    scan = assemble_scan(manifest, result.frames, source=source, out_dir=out_dir,
+                         tolerance=tolerance)
     return scan, result
-
-
-def annotate_scan(manifest, scan: dict, *, tolerance: float | None = None) -> dict:
-    """Give an analysed scan its refinement bookkeeping and change estimates.
-
-    Frames that refinement made get their ``refine`` records back from the
-    manifest's record of generated frames, and every change gets its
-    estimate, method, evaluations and uncertainty
-    (:func:`trackscan.refine.estimates.annotate_changes`), so analysing a
-    refined scan again keeps what refinement found.
-
-    Parameters
-    ----------
-    manifest : ScanManifest
-    scan : dict
-        From :func:`trackscan.analysis.analyze_scan`; changed in place.
-    tolerance : float, optional
-        The refine tolerance, when known.
-
-    Returns
-    -------
-    dict
-        `scan`.
-    """
-    meta = _recorded_meta(manifest)
-    for f in scan["frames"]:
-        m = meta.get(os.path.normcase(os.path.abspath(manifest.base_dir / f["source"])))
-        if m is not None:
-            f[REFINE_KEY] = dict(m)
-    scan["changes"] = annotate_changes(scan["frames"], scan["changes"], tolerance=tolerance,
-                                       gtol=manifest.analysis.gtol)
-    return scan
 
 
 def suggest_values(manifest, *, tolerance: float, jobs: int = 1, out_dir=None,
@@ -268,10 +205,10 @@ def suggest_values(manifest, *, tolerance: float, jobs: int = 1, out_dir=None,
     check_options(tolerance=tolerance, jobs=jobs)
     out_dir = Path(out_dir) if out_dir is not None else Path("reports") / manifest.name
     sugg_dir = out_dir / "suggested"
-    frames = load_frames(manifest, backend=backend, cache_dir=out_dir / ".cache",
-                         suggested_dir=sugg_dir, progress=progress)
+    _, frames = load_frames(manifest, backend=backend, cache_dir=out_dir / ".cache",
+                            suggested_dir=sugg_dir, progress=progress)
     tracked = _track(manifest)(frames)
-    rounds = [int(f[REFINE_KEY].get("round", 0)) for f in frames if REFINE_KEY in f]
+    rounds = [int(f.refine.round or 0) for f in frames if f.refine is not None]
     probes = plan_round(tracked, tolerance=tolerance, jobs=jobs,
                         round_number=max(rounds, default=0) + 1, gtol=manifest.analysis.gtol)
     drive = None
@@ -292,12 +229,12 @@ def suggest_values(manifest, *, tolerance: float, jobs: int = 1, out_dir=None,
         known = {}
         if path.is_file():
             try:
-                known = {_key(s["value"]): s for s in
+                known = {round_value(s["value"]): s for s in
                          json.loads(path.read_text(encoding="utf-8"))["suggestions"]}
             except (ValueError, KeyError, TypeError):
                 known = {}
         for p in probes:
-            known[_key(p.value)] = {"value": p.value, REFINE_KEY: p.meta}
+            known[round_value(p.value)] = {"value": p.value, REFINE_KEY: p.meta}
         write_text_atomic(path, json.dumps({"suggestions": [known[k] for k in sorted(known)]},
                                            indent=1, sort_keys=True) + "\n")
     return out

@@ -16,6 +16,7 @@ from pathlib import Path
 
 from trackscan.elements import symbol
 from trackscan.errors import InputError, ParseError
+from trackscan.units import unit_symbol
 
 __all__ = ["ScanData", "load_scan", "CP_KINDS", "atom_label", "frame_energy", "cp_by_id"]
 
@@ -82,10 +83,7 @@ class ScanData:
     @property
     def unit_symbol(self) -> str:
         """Short symbol of the coordinate unit for axes and tables (Å, °, bohr)."""
-        unit = self.coordinate_unit.lower()
-        return {"angstrom": "Å", "ångström": "Å", "a": "Å", "å": "Å",
-                "degree": "°", "degrees": "°", "deg": "°",
-                "bohr": "bohr", "radian": "rad", "rad": "rad"}.get(unit, self.coordinate_unit)
+        return unit_symbol(self.coordinate_unit)
 
     @property
     def frames(self) -> list:

@@ -312,7 +312,7 @@ def refine_words(change, scan: ScanData) -> str:
                      f"tolerance {fmt_sig(info['tolerance'], 3)}{unit}")
     if "converged" in info:
         parts.append("tolerance reached" if info["converged"] else "tolerance NOT reached")
-    fit = info.get("fold_fit")
+    fit = change.get("fit")
     if isinstance(fit, dict) and fit.get("outside_bracket"):
         parts.append("the fold extrapolation fell outside the bracket and was not used")
     return ("; ".join(parts) + ".") if parts else ""

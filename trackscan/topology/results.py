@@ -13,25 +13,15 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["CriticalPoint", "BondPath", "KINDS", "COUNT_KEYS", "sig", "fix"]
+from trackscan.model import KINDS
+from trackscan.model import significant as sig
 
-KINDS = ("nuclear", "non_nuclear", "bond", "ring", "cage", "degenerate")
-"""Critical-point kinds (the contract's ``kind`` values), in id order."""
+__all__ = ["CriticalPoint", "BondPath", "KINDS", "COUNT_KEYS", "sig", "fix"]
 
 ID_PREFIX = {"nuclear": "n", "non_nuclear": "a", "bond": "b", "ring": "r", "cage": "c",
              "degenerate": "d"}
 
 COUNT_KEYS = ("nuclear", "non_nuclear", "bond", "ring", "cage")
-
-
-def sig(x, digits: int = 10):
-    """`x` rounded to `digits` significant digits (None, inf and nan pass through)."""
-    if x is None:
-        return None
-    x = float(x)
-    if not math.isfinite(x) or x == 0.0:
-        return 0.0 if x == 0.0 else x
-    return float(f"{x:.{digits}g}") + 0.0
 
 
 def fix(x, decimals: int = 8):

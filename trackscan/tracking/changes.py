@@ -9,12 +9,14 @@ them into the events and mechanism of a change (DESIGN.md section 3):
   non-nuclear attractor + bond CP);
 * a conflict is a bond CP that survives while its path switches one end to
   another attractor;
-* ``mixed`` has both; ``unresolved`` is used when the grid cannot tell, and
-  the change then carries a ``note`` saying why: a frame fails
-  Poincaré–Hopf, a point is born or lost without a partner, a fold pair's
-  density difference lies below the frames' resolution floor
-  (:mod:`.resolution`), or a pair flickers in a single frame with a density
-  difference below ``significance`` times the floor (noise, not a change).
+* ``mixed`` has both; ``unresolved`` is used when the evidence does not
+  decide, and the change then carries a ``note`` saying why: a frame fails
+  Poincaré–Hopf, a point is born or lost without a partner, or a pair
+  flickers in a single frame with a density difference below
+  ``significance`` times the floor (noise, not a change).  A fold pair whose
+  density difference or separation lies below the frames' resolution floor
+  (:mod:`.resolution`) keeps its mechanism, read from the frames of the
+  approach, and the change is marked ``resolution_limited``.
 """
 
 from __future__ import annotations
@@ -25,12 +27,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from trackscan.model import significant as sig
 from trackscan.tracking.frames import displacement
 from trackscan.tracking.matching import pair_folds
 from trackscan.tracking.resolution import interpolation_floor, rho_floor, separation_floor
 from trackscan.tracking.structures import end_label, same_structure_type, sort_ends
 
-__all__ = ["StepEvents", "analyse_step", "find_changes", "sig"]
+__all__ = ["StepEvents", "analyse_step", "find_changes"]
 
 _LOST = {"bond": "bond_broken", "ring": "ring_lost", "cage": "cage_lost",
          "non_nuclear": "attractor_lost", "nuclear": "attractor_lost"}
@@ -201,18 +204,6 @@ def _digits(view, settings):
     return view.significant_digits or settings.printed_digits
 
 
-def sig(x, digits: int = 10):
-    """`x` rounded to `digits` significant digits, so that noise far below any
-    meaningful digit (e.g. from a rigid rotation) cannot change the output;
-    None stays None, non-finite values become None."""
-    if x is None:
-        return None
-    x = float(x)
-    if not math.isfinite(x):
-        return None
-    return float(f"{x:.{digits}g}") + 0.0
-
-
 def _pair_record(lo, hi, d, frame, view, tracks, settings):
     """Resolution of one fold pair at the bracket end where it exists.
 
@@ -353,8 +344,8 @@ def find_changes(views, tracks, matches, aligned, keys, graphs, structures, *, s
                          f"{worst['rho_difference']:.2g}, separation "
                          f"{worst['separation_bohr']:.2g} bohr) is below the resolution floor of "
                          f"frame {worst['frame']} (density {worst['rho_floor']:.2g}, separation "
-                         f"{worst['separation_floor_bohr']:.2g} bohr)")
-            mechanism = "unresolved"
+                         f"{worst['separation_floor_bohr']:.2g} bohr); the mechanism "
+                         "is read from the approach to the change")
         if st.noise:
             notes.extend(st.noise)
             mechanism = "unresolved"
@@ -374,6 +365,11 @@ def find_changes(views, tracks, matches, aligned, keys, graphs, structures, *, s
                                                               keys[k], keys[k + 1]),
             "resolution": resolution,
         }
+        if not resolution["resolved"]:
+            # below the floor the grid cannot see the last steps of the
+            # approach, but the pairing of the frames before still decides
+            # the mechanism: it is kept, and the change says it is limited
+            change["resolution_limited"] = True
         if mechanism != candidate:
             change["mechanism_candidate"] = candidate
         if notes:

@@ -20,31 +20,31 @@ def _path(atoms, elements) -> str:
     return _DASH.join(atom_label(a, elements) for a in atoms)
 
 
-def describe_event(event: dict, elements) -> str:
+def describe_event(event, elements) -> str:
     """One event in words.
 
     Parameters
     ----------
-    event : dict
-        An element of a change's ``events``.
+    event : trackscan.model.Event
     elements : sequence of str
         Element symbols of the atoms, in atom order.
 
     Examples
     --------
-    >>> describe_event({"kind": "bond_broken", "atoms": [1, 2]}, ["C", "C", "H"])
+    >>> from trackscan.model import Event
+    >>> describe_event(Event(kind="bond_broken", atoms=(1, 2)), ["C", "C", "H"])
     'bond path C1–C2 broken'
-    >>> describe_event({"kind": "bond_switched", "atoms_before": [1, 3],
-    ...                 "atoms_after": [2, 3]}, ["C", "C", "H"])
+    >>> describe_event(Event(kind="bond_switched", atoms_before=(1, 3),
+    ...                      atoms_after=(2, 3)), ["C", "C", "H"])
     'bond path C1–H3 switched to C2–H3'
     """
-    kind = event.get("kind", "")
-    atoms = event.get("atoms") or []
+    kind = event.kind
+    atoms = event.atoms or ()
     if kind in ("bond_broken", "bond_formed"):
         return f"bond path {_path(atoms, elements)} {kind.split('_')[1]}"
     if kind == "bond_switched":
-        return (f"bond path {_path(event.get('atoms_before') or [], elements)} switched to "
-                f"{_path(event.get('atoms_after') or [], elements)}")
+        return (f"bond path {_path(event.atoms_before or (), elements)} switched to "
+                f"{_path(event.atoms_after or (), elements)}")
     what, _, how = kind.partition("_")
     if what in ("ring", "cage"):
         return f"{what} CP {how}"
@@ -53,6 +53,6 @@ def describe_event(event: dict, elements) -> str:
     return kind.replace("_", " ")
 
 
-def describe_change(change: dict, elements) -> str:
-    """All events of a change in words, joined by "; "."""
-    return "; ".join(describe_event(e, elements) for e in change.get("events", [])) or "(no events)"
+def describe_change(change, elements) -> str:
+    """All events of a change (a trackscan.model.Change) in words, joined by "; "."""
+    return "; ".join(describe_event(e, elements) for e in change.events) or "(no events)"

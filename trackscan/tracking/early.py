@@ -15,7 +15,7 @@ import math
 
 import numpy as np
 
-from trackscan.tracking.changes import sig
+from trackscan.model import significant as sig
 from trackscan.tracking.describe import atom_label
 
 __all__ = ["bond_series", "early_warnings"]

@@ -2,14 +2,17 @@
 
 from __future__ import annotations
 
-import copy
+import dataclasses
 import logging
+from dataclasses import dataclass
 
 import numpy as np
 
 from trackscan.errors import ConsistencyError, InputError
+from trackscan.model import (BondTrack, Change, EarlyWarning, FrameResolution, Structure,
+                             significant)
 from trackscan.tracking.align import apply_transform, chain_alignments
-from trackscan.tracking.changes import find_changes, sig
+from trackscan.tracking.changes import find_changes
 from trackscan.tracking.early import bond_series, early_warnings
 from trackscan.tracking.frames import check_same_atoms, view_frame
 from trackscan.tracking.matching import assign_tracks, match_step
@@ -18,9 +21,61 @@ from trackscan.tracking.settings import TrackingSettings
 from trackscan.tracking.structures import (end_label, frame_graph, number_structures,
                                            sort_ends, structure_key)
 
-__all__ = ["track_scan"]
+__all__ = ["track_scan", "TrackingResult"]
 
 logger = logging.getLogger(__name__)
+
+
+@dataclass(frozen=True, eq=False)
+class TrackingResult:
+    """What tracking found in a scan.
+
+    Attributes
+    ----------
+    frames : tuple of trackscan.model.Frame
+        The frames in scan order, with ``index`` (position in scan order),
+        ``structure`` (number), a ``track`` on every critical point and a
+        ``resolution`` summary.
+    changes : tuple of trackscan.model.Change
+        One per step between different structures.
+    early_warnings : tuple of trackscan.model.EarlyWarning
+    bond_tracks : tuple of trackscan.model.BondTrack
+        Indicator series per bond track.
+    structures : tuple of trackscan.model.Structure
+        One entry per structure number.
+    direction : str
+        ``ascending`` or ``descending``.
+    settings : TrackingSettings
+        The settings used.
+    incomplete_frames : tuple of int
+        Indices of frames failing Poincaré–Hopf.
+    """
+
+    frames: tuple
+    changes: tuple
+    early_warnings: tuple
+    bond_tracks: tuple
+    structures: tuple
+    direction: str
+    settings: TrackingSettings
+    incomplete_frames: tuple
+
+    def to_dict(self) -> dict:
+        """The contract form (the keys of scan.json that tracking fills)."""
+        return {
+            "frames": [f.to_dict() for f in self.frames],
+            "changes": [c.to_dict() for c in self.changes],
+            "early_warnings": [w.to_dict() for w in self.early_warnings],
+            "bond_tracks": [b.to_dict() for b in self.bond_tracks],
+            "structures": [s.to_dict() for s in self.structures],
+            "direction": self.direction,
+            "tracking": self.settings.to_dict(),
+            "incomplete_frames": list(self.incomplete_frames),
+        }
+
+    def with_changes(self, changes) -> "TrackingResult":
+        """A copy with other changes (refinement's annotated ones)."""
+        return dataclasses.replace(self, changes=tuple(changes))
 
 
 def _direction(values, setting):
@@ -36,9 +91,9 @@ def track_scan(frames, *, settings=None, unit=""):
 
     Parameters
     ----------
-    frames : sequence of dict
-        Frame dicts per the contract (DEVELOPERS.md "Internal contracts"), in
-        any order; they are sorted by their ``value``.
+    frames : sequence of trackscan.model.Frame
+        In any order; they are sorted by their ``value``.  (Contract dicts
+        are accepted too and read with ``Frame.from_dict``.)
     settings : TrackingSettings, optional
         Defaults: ``TrackingSettings()``.
     unit : str
@@ -46,15 +101,7 @@ def track_scan(frames, *, settings=None, unit=""):
 
     Returns
     -------
-    dict
-        ``frames``: copies of the frames in scan order, with ``index``
-        (position in scan order), ``structure`` (number), a ``track`` on every
-        critical point and a ``resolution`` summary; ``changes`` per the
-        contract plus ``structures``, ``structure_type_changed`` and
-        ``resolution``; ``early_warnings``; ``bond_tracks`` (indicator series
-        per bond track); ``structures`` (one entry per structure number);
-        ``direction``, ``tracking`` (the settings used) and
-        ``incomplete_frames`` (indices of frames failing Poincaré–Hopf).
+    TrackingResult
 
     Raises
     ------
@@ -115,25 +162,23 @@ def track_scan(frames, *, settings=None, unit=""):
                               unit=unit, elements=views[0].elements)
     out_frames = []
     for k, v in enumerate(views):
-        f = copy.deepcopy(frames[v.listed])
-        f["index"] = k
-        f["structure"] = structures[k]
-        for cp in f.get("critical_points") or []:
-            cp["track"] = tracks[k][str(cp["id"])]
-        f["resolution"] = {"spacing_bohr": sig(v.spacing),
-                           "interpolation_floor": sig(interpolation_floor(v.spacing)),
-                           "printed_digits": v.significant_digits or settings.printed_digits}
-        out_frames.append(f)
-    return {
-        "frames": out_frames,
-        "changes": changes,
-        "early_warnings": warnings,
-        "bond_tracks": series,
-        "structures": _structure_table(keys, structures),
-        "direction": direction,
-        "tracking": settings.to_dict(),
-        "incomplete_frames": [k for k, v in enumerate(views) if not v.complete],
-    }
+        cps = tuple(dataclasses.replace(cp, track=tracks[k][str(cp.id)]) for cp in v.cps)
+        resolution = FrameResolution(
+            spacing_bohr=significant(v.spacing),
+            interpolation_floor=significant(interpolation_floor(v.spacing)),
+            printed_digits=v.significant_digits or settings.printed_digits)
+        out_frames.append(dataclasses.replace(v.frame, index=k, structure=structures[k],
+                                              critical_points=cps, resolution=resolution))
+    return TrackingResult(
+        frames=tuple(out_frames),
+        changes=tuple(Change.from_dict(c, f"changes[{i}]") for i, c in enumerate(changes)),
+        early_warnings=tuple(EarlyWarning.from_dict(w) for w in warnings),
+        bond_tracks=tuple(BondTrack.from_dict(b) for b in series),
+        structures=tuple(Structure.from_dict(t) for t in _structure_table(keys, structures)),
+        direction=direction,
+        settings=settings,
+        incomplete_frames=tuple(k for k, v in enumerate(views) if not v.complete),
+    )
 
 
 def _structure_table(keys, numbers):
