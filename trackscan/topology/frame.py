@@ -98,6 +98,18 @@ class FrameTopology:
             out[cp.kind] += 1
         return out
 
+    def __repr__(self) -> str:
+        import os
+
+        c = self.counts
+        parts = ", ".join(f"{n} {k.replace('_', '-')}" for k, n in c.items() if n)
+        where = os.path.basename(self.source) if self.source else "grid"
+        ph = "holds" if self.poincare_hopf.get("holds") else (
+            f"fails ({self.poincare_hopf.get('value')}, expected "
+            f"{self.poincare_hopf.get('expected')})")
+        warn = f", {len(self.warnings)} warning(s)" if self.warnings else ""
+        return f"<FrameTopology {where}: {parts}; Poincaré–Hopf {ph}{warn}>"
+
     def by_kind(self, kind: str) -> list:
         """The critical points of one kind."""
         return [cp for cp in self.critical_points if cp.kind == kind]
