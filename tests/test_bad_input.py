@@ -32,6 +32,9 @@ CUBES = {
     "broken_gzip.cube.gz": ("cannot read", None),
     "good_frame.cube/inner.cube": ("no such file", None),  # a path through a file
     "no_such_file.cube": ("no such file", None),
+    "axis_count_1e20.cube": ("axis 1 claims 100000000000000000000 points", 4),
+    "wrapping_axis_counts.cube": ("= 18446744073709551616 values, more than the ceiling", 4),
+    "huge_coordinate.cube": ("number 1.7e308 out of range", 7),
 }
 MANIFESTS = {
     "bad_yaml.yaml": ("bad YAML", 3),
@@ -45,6 +48,23 @@ MANIFESTS = {
     "listed_value_disagrees.yaml": ("frames[0].value: listed value 0.9 angstrom disagrees with "
                                     "the distance 1-2 measured on good_frame.cube: 0.740848", 4),
     "no_such_manifest.yaml": ("no such manifest file", None),
+    # issue 16: bounded YAML, validated numbers (checked before any key)
+    "alias_bomb.yaml": ("f: YAML aliases expand to more than 200000 nodes", 6),
+    "deep_nesting.yaml": ("YAML nested deeper than 64 levels", 2),
+    "recursive_alias.yaml": ("coordinate.again: recursive YAML alias", 2),
+    "list_as_key.yaml": ("frames[0]: a key must be a plain value, not a list", 4),
+    "lone_surrogate.yaml": ("description: a lone surrogate U+D800", 2),
+    "nul_in_name.yaml": ("name: a NUL byte at character 4", 1),
+    "huge_value.yaml": ("frames[0].value: 1e+300 is out of range", 3),
+    "huge_integer_value.yaml": ("frames[0].value: 1000", 3),
+    "max_float_value.yaml": ("frames.values[0]: 1.7e+308 is out of range", 3),
+    "colliding_values.yaml": ("give the same frame file frame_p60.000000.cube", 3),
+    "nan_density_floor.yaml": ("analysis.density_floor: expected a finite number, got nan", 3),
+    "inf_density_floor.yaml": ("analysis.density_floor: expected a finite number, got inf", 3),
+    "nan_max_step.yaml": ("analysis.max_step: expected a finite number, got nan", 3),
+    "maxiter_zero.yaml": ("analysis.maxiter: must be >= 1", 3),
+    "max_points_negative.yaml": ("analysis.max_points: must be >= 64", 3),
+    "long_frame_path.yaml": ("frames[0].file: file name too long", 3),
 }
 
 
@@ -82,6 +102,20 @@ def test_bad_manifest(capsys, name):
 
 def test_corpus_is_large_enough():
     assert len([p for p in BAD.iterdir() if p.name not in ("good_frame.cube", "other_atoms_frame.cube")]) >= 12
+
+
+def test_every_corpus_file_is_mapped():
+    helpers = {"good_frame.cube", "other_atoms_frame.cube", "hydroxyl.xyz"}
+    mapped = {k.split("/")[0] for k in CUBES} | set(MANIFESTS)
+    unmapped = sorted(p.name for p in BAD.iterdir() if p.name not in helpers | mapped)
+    assert unmapped == []
+
+
+def test_too_small_grid_is_refused_by_the_analysis(capsys):
+    # good_frame.cube is 2x2x3: readable (inspect, check) but no tricubic spline fits it
+    code, err = _run(capsys, ["frame", str(BAD / "good_frame.cube")])
+    assert code == 2
+    assert err.count("\n") == 1 and "good_frame.cube: the grid has 2x2x3 points" in err
 
 
 def test_real_process_prints_no_traceback():

@@ -13,8 +13,8 @@ import numpy as np
 from trackscan.units import (ANGSTROM_IN_BOHR, UNITS_OF_KIND, angle_factor, canonical_unit,
                              length_factor)
 
-__all__ = ["COORDINATE_KINDS", "distance", "angle", "dihedral", "measure", "in_unit",
-           "default_tolerance", "difference", "DEFAULT_TOLERANCES"]
+__all__ = ["kabsch", "apply_transform", "COORDINATE_KINDS", "distance", "angle", "dihedral",
+           "measure", "in_unit", "default_tolerance", "difference", "DEFAULT_TOLERANCES"]
 
 #: Kind of internal coordinate -> number of atoms that define it.
 COORDINATE_KINDS = {"distance": 2, "angle": 3, "dihedral": 4}
@@ -125,3 +125,78 @@ def difference(kind: str, listed: float, measured: float, unit: str) -> float:
         d = d % turn
         d = min(d, turn - d)
     return d
+
+
+def kabsch(moving, target, *, weights=None):
+    """Best proper rotation and shift taking `moving` onto `target`.
+
+    Parameters
+    ----------
+    moving, target : (n, 3) array_like, bohr
+        Corresponding points (the nuclei of two frames, same atom order).
+    weights : (n,) array_like, optional
+        Non-negative weights (default: all equal).
+
+    Returns
+    -------
+    rotation : (3, 3) ndarray
+        Proper rotation (det = +1).
+    shift : (3,) ndarray, bohr
+        Such that ``moving @ rotation.T + shift`` is closest to `target` in
+        the weighted least-squares sense.
+
+    Notes
+    -----
+    The cross-covariance matrix of the centred point sets is decomposed by
+    SVD; the sign of the last singular vector is flipped when needed so that
+    the result is a rotation, not a reflection [1]_ [2]_.  O(n).
+
+    References
+    ----------
+    .. [1] W. Kabsch, "A solution for the best rotation to relate two sets of
+       vectors", Acta Cryst. A32, 922-923 (1976). :DOI:`10.1107/S0567739476001873`
+    .. [2] W. Kabsch, "A discussion of the solution for the best rotation to
+       relate two sets of vectors", Acta Cryst. A34, 827-828 (1978).
+       :DOI:`10.1107/S0567739478001680`
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> p = np.array([[0., 0, 0], [1, 0, 0], [0, 2, 0]])
+    >>> c, s = np.cos(0.3), np.sin(0.3)
+    >>> r = np.array([[c, -s, 0], [s, c, 0], [0, 0, 1]])
+    >>> rot, shift = kabsch(p @ r.T + 5.0, p)
+    >>> bool(np.allclose((p @ r.T + 5.0) @ rot.T + shift, p))
+    True
+    """
+    p = np.asarray(moving, dtype=np.float64)
+    q = np.asarray(target, dtype=np.float64)
+    if p.shape != q.shape or p.ndim != 2 or p.shape[1] != 3:
+        raise ValueError(f"moving and target must both be (n, 3); got {p.shape} and {q.shape}")
+    n = len(p)
+    if weights is None:
+        cp, cq = p.mean(axis=0), q.mean(axis=0)
+        if n < 2:
+            return np.eye(3), cq - cp
+        h = (p - cp).T @ (q - cq)
+    else:
+        w = np.asarray(weights, dtype=np.float64)
+        if w.shape != (n,) or np.any(w < 0) or w.sum() <= 0:
+            raise ValueError("weights must be (n,) non-negative and not all zero")
+        w = w / w.sum()
+        cp, cq = w @ p, w @ q
+        if n < 2:
+            return np.eye(3), cq - cp
+        h = (p - cp).T @ ((q - cq) * w[:, None])
+    u, _, vt = np.linalg.svd(h)
+    d = np.sign(np.linalg.det(vt.T @ u.T))
+    if d == 0:
+        d = 1.0
+    rot = vt.T @ np.diag([1.0, 1.0, d]) @ u.T
+    return rot, cq - cp @ rot.T
+
+
+def apply_transform(points, transform) -> np.ndarray:
+    """Apply ``(rotation, shift)`` to (..., 3) points."""
+    rot, shift = transform
+    return np.asarray(points, dtype=np.float64) @ rot.T + shift

@@ -11,11 +11,14 @@ Hierarchy::
     ├── InputError             bad input from the user (exit code 2)
     │   ├── ParseError         a file could not be read (path, line number)
     │   ├── ConfigError        a manifest or settings key is wrong (key path)
-    │   └── ConsistencyError   frames of one scan disagree (atoms differ)
-    ├── AlgorithmError         a computation could not finish
-    │   ├── ConvergenceError   an iteration did not converge
-    │   └── TrackingError      frames could not be followed
+    │   ├── ConsistencyError   frames of one scan disagree (atoms differ)
+    │   ├── ScanFormatError    a scan result or cached frame is malformed (key path)
+    │   └── DegenerateDensityError  a grid with no traceable topology (constant,
+    │                          noise): refused instead of traced without end
     └── GeneratorError         a density source failed (program, SCF, ...)
+
+(Classes that nothing raised were removed: a class exists here when some
+code raises it.)
 """
 
 from __future__ import annotations
@@ -28,16 +31,30 @@ __all__ = [
     "ParseError",
     "ConfigError",
     "ConsistencyError",
-    "AlgorithmError",
-    "ConvergenceError",
-    "TrackingError",
+    "ScanFormatError",
+    "DegenerateDensityError",
     "GeneratorError",
-    "TrackscanWarning",
 ]
 
 
 class TrackscanError(Exception):
-    """Base class of every error trackscan raises on purpose."""
+    """Base class of every error trackscan raises on purpose.
+
+    Errors pickle with all their attributes (a worker process's error
+    reaches the parent with its file, line and key, not re-built from the
+    formatted message).
+    """
+
+    def __reduce__(self):
+        return (_restore, (type(self), self.args, dict(self.__dict__)))
+
+
+def _restore(cls, args, state):
+    """Rebuild a pickled trackscan error without calling its ``__init__``."""
+    obj = cls.__new__(cls)
+    obj.args = args
+    obj.__dict__.update(state)
+    return obj
 
 
 class InputError(TrackscanError):
@@ -121,35 +138,20 @@ class ConsistencyError(InputError):
     """Frames of one scan disagree (different atoms, different order)."""
 
 
-class AlgorithmError(TrackscanError):
-    """A computation could not finish."""
+class ScanFormatError(InputError):
+    """A scan result (scan.json, a cached frame) is malformed; the message names the key path."""
 
 
-class ConvergenceError(AlgorithmError):
-    """An iteration did not converge.
+class DegenerateDensityError(InputError):
+    """A density grid whose topology cannot be traced in bounded work.
 
-    Parameters
-    ----------
-    message : str
-        What did not converge.
-    n_iter : int, optional
-        Iterations spent.
+    Raised for a constant grid (a plateau: every point is degenerate) and
+    when the number of critical points or of gradient-path steps of one
+    frame passes its cap (:mod:`trackscan.topology.limits`), as on a grid
+    of random noise.  It is bad input (exit code 2), not a failed
+    computation.
     """
-
-    def __init__(self, message: str, n_iter: int | None = None):
-        self.n_iter = n_iter
-        if n_iter is not None:
-            message = f"{message} (after {n_iter} iterations)"
-        super().__init__(message)
-
-
-class TrackingError(AlgorithmError):
-    """Frames of a scan could not be followed."""
 
 
 class GeneratorError(TrackscanError):
     """A density source (external program, SCF, model) failed."""
-
-
-class TrackscanWarning(UserWarning):
-    """Warning category for results that are usable but doubtful."""

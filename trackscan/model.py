@@ -29,7 +29,7 @@ from typing import Mapping
 
 import numpy as np
 
-from trackscan.errors import InputError
+from trackscan.errors import ScanFormatError
 
 __all__ = [
     "KINDS", "ATTRACTOR_KINDS", "MORSE_INDEX", "SCHEMA", "ScanFormatError",
@@ -84,10 +84,6 @@ def significant(x, digits: int = 10):
     if not math.isfinite(x):
         return None
     return float(f"{x:.{digits}g}") + 0.0
-
-
-class ScanFormatError(InputError):
-    """A scan result (scan.json, a cached frame) is malformed; names the key path."""
 
 
 # -- the declarative core -------------------------------------------------------------

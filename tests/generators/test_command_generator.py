@@ -8,7 +8,7 @@ import pytest
 
 from trackscan.errors import GeneratorError
 from trackscan.generators import make_generator
-from trackscan.generators.config import parse_generator_config
+from trackscan.io.generator_config import parse_generator_config
 from trackscan.io.cube import read_cube
 from trackscan.io.xyz import read_xyz
 

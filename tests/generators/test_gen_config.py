@@ -8,7 +8,7 @@ import pytest
 from trackscan.errors import ConfigError, GeneratorError
 from trackscan.io.xyz import read_xyz
 from trackscan.generators import make_generator
-from trackscan.generators.config import (
+from trackscan.io.generator_config import (
     CommandConfig, PromoleculeConfig, PySCFConfig, parse_generator_config,
 )
 
@@ -35,14 +35,14 @@ def test_promolecule_source(scan_dir):
     assert cfg.geometry.xyz == scan_dir / "start.xyz"
     assert cfg.geometry.drive.atoms == (1, 2)
     gen = make_generator(cfg)
-    assert gen.is_model and "model" in gen.describe()
+    assert "model" in gen.describe()
 
 
 def test_geometry_only_writes_geometry_and_refuses_densities(scan_dir):
     cfg = parse({"geometry": {"xyz": "start.xyz", "drive": {"distance": [1, 2]}}}, scan_dir)
     assert cfg.source == "none" and cfg.options is None
     gen = make_generator(cfg)
-    assert not gen.is_model and "geometry only" in gen.describe()
+    assert "geometry only" in gen.describe()
     with pytest.raises(GeneratorError, match="no density source"):
         gen.generate(1.1, scan_dir / "frames" / "f.cube")
     assert not (scan_dir / "frames" / "f.cube").exists()

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from trackscan.generators import make_generator
-from trackscan.generators.config import parse_generator_config
+from trackscan.io.generator_config import parse_generator_config
 from trackscan.promolecule import MODEL_LABEL, Promolecule
 
 ase_cube = pytest.importorskip("ase.io.cube")
@@ -16,8 +16,11 @@ def test_promolecule_cube_read_by_ase(tmp_path):
         {"geometry": {"xyz": "start.xyz", "drive": {"angle": [2, 1, 3]}},
          "promolecule": {"spacing": 0.25, "margin": 3.0}}, path=tmp_path / "scan.yaml")
     gen = make_generator(cfg)
-    assert gen.is_model and MODEL_LABEL in gen.describe()
+    assert MODEL_LABEL in gen.describe()
     out = gen.generate(95.0, tmp_path / "frames" / "a.cube")
+    # the one model-density signal: the cube's first comment line, which the
+    # frame analysis turns into the frame's density_model flag
+    assert out.path.read_text().splitlines()[0].startswith(MODEL_LABEL)
     with open(out.path) as fh:
         data = ase_cube.read_cube(fh)
     atoms, values, origin = data["atoms"], data["data"], data["origin"]

@@ -11,7 +11,7 @@ from pyscf import gto, scf  # noqa: E402
 
 from trackscan.errors import ConfigError, GeneratorError  # noqa: E402
 from trackscan.generators import make_generator  # noqa: E402
-from trackscan.generators.config import parse_generator_config  # noqa: E402
+from trackscan.io.generator_config import parse_generator_config  # noqa: E402
 from trackscan.io.cube import read_cube  # noqa: E402
 
 pytestmark = pytest.mark.slow

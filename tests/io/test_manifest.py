@@ -48,9 +48,10 @@ def test_explicit_list_relative_paths_and_energies(scan_dir, tmp_path):
         "  - {file: ../frames/h2_0.cube, value: 2, energy: -1.1}\n"
         "  - {file: ../frames/h2_1.cube, value: 1}\n")
     m = load_manifest(sub / "scan.yaml")
-    assert [f.value for f in m.frames] == [1.0, 2.0]
-    assert m.frames[1].energy == -1.1 and m.frames[0].energy is None
-    assert m.frames[0].file == (sub / "../frames/h2_1.cube")
+    # listed with falling values: the scan runs downwards (tracking direction auto)
+    assert [f.value for f in m.frames] == [2.0, 1.0]
+    assert m.frames[0].energy == -1.1 and m.frames[1].energy is None
+    assert m.frames[1].file == (sub / "../frames/h2_1.cube")
     assert m.analysis.density_floor == 1e-3
 
 
@@ -120,3 +121,30 @@ def test_yaml11_exponent_numbers_accepted(scan_dir):
     m = load_manifest(scan_dir / "s.yaml")
     assert m.analysis.gtol == 1e-9
     assert m.frames[0].value == 0.1
+
+
+def test_tracking_section_and_scan_direction(scan_dir):
+    base = ("name: x\ncoordinate: {label: H1-H2 distance, distance: [1, 2]}\n"
+            "frames: {glob: 'frames/*.cube'}\n")
+    (scan_dir / "a.yaml").write_text(base + "tracking: {direction: descending, match_gate: 0.5}\n")
+    m = load_manifest(scan_dir / "a.yaml")
+    assert m.tracking.direction == "descending" and m.tracking.match_gate == 0.5
+    assert [round(f.value, 6) for f in m.frames] == [0.9, 0.8, 0.7]
+    (scan_dir / "b.yaml").write_text(base)
+    assert load_manifest(scan_dir / "b.yaml").tracking.direction == "auto"
+
+
+@pytest.mark.parametrize("section, key", [
+    ("tracking: {match_gat: 1}", "tracking.match_gat"),
+    ("tracking: {direction: sideways}", "tracking"),
+    ("tracking: {printed_digits: 0}", "tracking"),
+    ("tracking: {significance: .nan}", "tracking"),
+    ("tracking: [1]", "tracking"),
+])
+def test_tracking_section_is_validated(scan_dir, section, key):
+    (scan_dir / "c.yaml").write_text(
+        "name: x\ncoordinate: {label: H1-H2 distance, distance: [1, 2]}\n"
+        "frames: {glob: 'frames/*.cube'}\n" + section + "\n")
+    with pytest.raises(ConfigError) as info:
+        load_manifest(scan_dir / "c.yaml")
+    assert info.value.key == key

@@ -14,7 +14,9 @@ import logging
 from pathlib import Path
 
 from trackscan import __version__
+from trackscan.errors import InputError
 from trackscan.io.atomic import write_text_atomic
+from trackscan.io.filecheck import regular_file_problem
 
 __all__ = ["file_digest", "cache_key", "load_entry", "store_entry", "CACHE_FORMAT"]
 
@@ -25,11 +27,24 @@ CACHE_FORMAT = 1
 
 
 def file_digest(path) -> str:
-    """SHA-256 hex digest of a file's bytes."""
+    """SHA-256 hex digest of a file's bytes.
+
+    Raises
+    ------
+    InputError
+        Not a regular file (checked before opening: a FIFO would block), or
+        unreadable.
+    """
+    problem = regular_file_problem(path)
+    if problem is not None:
+        raise InputError(problem, path)
     h = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 20), b""):
-            h.update(block)
+    try:
+        with open(path, "rb") as fh:
+            for block in iter(lambda: fh.read(1 << 20), b""):
+                h.update(block)
+    except OSError as exc:
+        raise InputError(f"cannot read the file ({exc.strerror})", path) from None
     return h.hexdigest()
 
 

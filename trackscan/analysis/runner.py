@@ -25,6 +25,7 @@ import numpy as np
 from trackscan.analysis.cache import cache_key, file_digest, load_entry, store_entry
 from trackscan.errors import InputError
 from trackscan.model import Frame, ScanFormatError
+from trackscan.io.filecheck import regular_file_problem
 from trackscan.progress import report
 
 __all__ = ["analyse_frames", "iter_frames", "analyse_cube", "printed_digits",
@@ -183,8 +184,10 @@ def iter_frames(files, settings, *, periodic=False, jobs=1, cache_dir=None, prog
     check_jobs(jobs)
     files = [os.fspath(f) for f in files]
     for f in files:
-        if not os.path.isfile(f):
-            raise InputError("frame file does not exist", f)
+        problem = regular_file_problem(f)
+        if problem is not None:
+            raise InputError("frame file does not exist" if problem == "no such file" else problem,
+                             f)
     sdict = settings.to_dict()
     keys = [None] * len(files)
     todo = []

@@ -11,6 +11,7 @@ stderr naming the file and the problem; ``--traceback`` shows the trace).
 from __future__ import annotations
 
 import argparse
+import errno
 import importlib
 import logging
 import os
@@ -32,6 +33,9 @@ COMMANDS = [
     ("demo", "trackscan.cli.demo", "run a demo scan end to end (built-in model; no QC code needed) into reports/"),
     ("refine", "trackscan.cli.refine", "narrow each structural change with new frames (fold extrapolation, bisection) or suggest where to compute them"),
 ]
+
+#: File-system refusals that the user can fix (permissions, read-only file systems).
+_BAD_INPUT_ERRNOS = (errno.EACCES, errno.EPERM, errno.EROFS)
 
 EXIT_OK = 0
 EXIT_FAILURE = 1
@@ -115,3 +119,10 @@ def main(argv=None) -> int:
         # stdout closed early (e.g. piped into head): stop quietly
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 1
+    except OSError as exc:
+        # the file system refused (a read-only folder, a full disk): one line, no trace
+        if args.traceback:
+            raise
+        where = f"{exc.filename}: " if exc.filename else ""
+        print(f"trackscan: error: {where}{exc.strerror or exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT if exc.errno in _BAD_INPUT_ERRNOS else EXIT_FAILURE

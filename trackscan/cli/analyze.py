@@ -20,7 +20,7 @@ from pathlib import Path
 
 from trackscan.analysis import analyze_scan, write_scan
 from trackscan.io.manifest import load_manifest
-from trackscan.io.output import prepare_output_dir
+from trackscan.cli.outputs import output_folder
 from trackscan.progress import TextProgress
 from trackscan.tracking import describe_change
 
@@ -100,10 +100,14 @@ def summary_lines(scan) -> list:
 
 
 def run(args) -> int:
+    manifest = load_manifest(args.manifest)
+    with output_folder(args.out if args.out else Path("reports") / manifest.name) as out:
+        return _analyze(args, manifest, out)
+
+
+def _analyze(args, manifest, out) -> int:
     from trackscan.report import write_report
 
-    manifest = load_manifest(args.manifest)
-    out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
     progress = TextProgress()
     scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress,
                         dask=args.dask)

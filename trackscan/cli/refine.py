@@ -54,13 +54,17 @@ def _backend(args):
 
 
 def run(args) -> int:
+    from trackscan.cli.outputs import output_folder
+
+    manifest = load_manifest(args.manifest)
+    with output_folder(args.out if args.out else Path("reports") / manifest.name) as out:
+        return _refine(args, manifest, out)
+
+
+def _refine(args, manifest, out) -> int:
     from trackscan.analysis import write_scan
     from trackscan.refine.scan import refine_manifest, suggest_values
 
-    from trackscan.io.output import prepare_output_dir
-
-    manifest = load_manifest(args.manifest)
-    out = prepare_output_dir(args.out if args.out else Path("reports") / manifest.name)
     backend = _backend(args)
     try:
         if args.suggest:

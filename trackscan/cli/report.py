@@ -30,16 +30,16 @@ def run(args) -> int:
     from trackscan.progress import TextProgress
     from trackscan.report import write_report
 
-    from trackscan.io.output import prepare_output_dir
+    from trackscan.cli.outputs import output_folder
 
     src = Path(args.scan)
     if not src.exists():
         raise InputError("no such scan.json or folder", src)
-    out = prepare_output_dir(args.out if args.out else (src if src.is_dir() else src.parent))
-    progress = TextProgress()
-    files = write_report(src, out, source_dir=args.source_dir,
-                         date=None if args.no_date else "today", progress=progress)
-    progress.close()
+    with output_folder(args.out if args.out else (src if src.is_dir() else src.parent)) as out:
+        progress = TextProgress()
+        files = write_report(src, out, source_dir=args.source_dir,
+                             date=None if args.no_date else "today", progress=progress)
+        progress.close()
     print(f"report: {files.html}")
     print(f"        {files.markdown} ({len(files.images)} figures), {files.changes_csv.name}, "
           f"{files.critical_points_csv.name}")

@@ -1,7 +1,7 @@
 """Density sources: geometry drives and generators of density cubes.
 
 From a validated ``generator`` manifest section
-(:func:`trackscan.generators.config.parse_generator_config`)::
+(:func:`trackscan.io.generator_config.parse_generator_config`)::
 
     from trackscan.generators import make_generator
     gen = make_generator(manifest.generator, coordinate=manifest.coordinate)
@@ -20,7 +20,7 @@ from pathlib import Path
 from trackscan.coordinates import measure
 from trackscan.errors import ConfigError
 from trackscan.generators.base import GeneratedFrame, Generator, GeometryOnly, sibling
-from trackscan.generators.config import GeneratorConfig, GeometryConfig, parse_generator_config
+from trackscan.io.generator_config import GeneratorConfig, GeometryConfig, parse_generator_config
 from trackscan.generators.geometry import (
     CoordinateDrive, TrajectoryDrive, from_internal_unit, value_from_comment,
 )

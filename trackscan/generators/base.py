@@ -19,10 +19,45 @@ import os
 from dataclasses import dataclass
 from pathlib import Path
 
-from trackscan.errors import GeneratorError
+from trackscan.errors import GeneratorError, InputError
+from trackscan.io.cube import DEFAULT_MAX_POINTS
 from trackscan.io.xyz import XYZFrame, write_xyz
 
-__all__ = ["Generator", "GeneratedFrame", "GeometryOnly", "sibling"]
+__all__ = ["Generator", "GeneratedFrame", "GeometryOnly", "sibling", "check_grid_size",
+           "MAX_GENERATED_POINTS"]
+
+MAX_GENERATED_POINTS = DEFAULT_MAX_POINTS
+"""Largest grid a generator builds (the cube reader's default ceiling)."""
+
+
+def check_grid_size(positions, *, spacing: float, margin: float, value: float, path) -> None:
+    """Refuse, before anything is allocated, a box around the atoms too large to sample.
+
+    The box is that of :func:`trackscan.promolecule.grid_box` (PySCF's cube
+    writer makes the same one, give or take a point per axis).  A typo in a
+    drive (a distance of 1.0e6 instead of 1.06) otherwise builds a grid of
+    gigabytes.
+
+    Raises
+    ------
+    InputError
+        Naming the value, the grid and the extent of the atoms.
+    """
+    import math
+
+    import numpy as np
+
+    pos = np.asarray(positions, dtype=np.float64).reshape(-1, 3)
+    extent = pos.max(axis=0) - pos.min(axis=0) if len(pos) else np.zeros(3)
+    if not np.all(np.isfinite(extent)):
+        raise InputError(f"value {value:g}: the geometry is not finite", path)
+    shape = [int(math.ceil((e + 2.0 * margin) / spacing - 1e-9)) + 1 for e in extent]
+    n = math.prod(shape)
+    if n > MAX_GENERATED_POINTS:
+        raise InputError(f"value {value:g}: the grid around the atoms would have "
+                         f"{'x'.join(map(str, shape))} = {n} points, more than the ceiling of "
+                         f"{MAX_GENERATED_POINTS} (the atoms span {float(extent.max()):.4g} bohr; "
+                         "is the value a typo?)", path)
 
 _CUBE_SUFFIXES = (".cube.gz", ".cube.bz2", ".cube.xz", ".cube", ".cub")
 
@@ -80,13 +115,12 @@ class Generator(abc.ABC):
     drive : CoordinateDrive or TrajectoryDrive, optional
         Source of geometries.
 
-    Attributes
-    ----------
-    is_model : bool
-        True for the built-in promolecular model (outputs must say so).
+    Notes
+    -----
+    A model density (the built-in promolecule) says so in the cube's first
+    comment line; the frame analysis reads that into the one model-density
+    flag, ``grid.density_model`` (:attr:`trackscan.model.Frame.is_model_density`).
     """
-
-    is_model = False
 
     def __init__(self, drive=None):
         self.drive = drive

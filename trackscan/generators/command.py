@@ -31,7 +31,7 @@ import numpy as np
 
 from trackscan.errors import GeneratorError, InputError
 from trackscan.generators.base import GeneratedFrame, Generator, sibling
-from trackscan.generators.config import CommandConfig
+from trackscan.io.generator_config import CommandConfig
 from trackscan.io.atomic import write_text_atomic
 from trackscan.io.cube import read_cube
 

@@ -31,7 +31,7 @@ import re
 import networkx as nx
 import numpy as np
 
-from trackscan.coordinates import COORDINATE_KINDS, measure
+from trackscan.coordinates import COORDINATE_KINDS, kabsch, measure
 from trackscan.elements import symbol
 from trackscan.errors import ConfigError, ConsistencyError, GeneratorError
 from trackscan.io.xyz import XYZFrame
@@ -330,13 +330,8 @@ def kabsch_align(mobile, reference):
         `mobile` rotated and translated to best fit `reference` [2]_.
     """
     p = np.asarray(mobile, dtype=float)
-    q = np.asarray(reference, dtype=float)
-    pc, qc = p.mean(axis=0), q.mean(axis=0)
-    h = (p - pc).T @ (q - qc)
-    u, _, vt = np.linalg.svd(h)
-    d = np.sign(np.linalg.det(vt.T @ u.T)) or 1.0
-    r = vt.T @ np.diag([1.0, 1.0, d]) @ u.T
-    return (p - pc) @ r.T + qc
+    rot, _ = kabsch(p, reference)
+    return (p - p.mean(axis=0)) @ rot.T + np.asarray(reference, dtype=float).mean(axis=0)
 
 
 class TrajectoryDrive:

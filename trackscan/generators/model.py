@@ -5,8 +5,8 @@ from __future__ import annotations
 import logging
 from pathlib import Path
 
-from trackscan.generators.base import GeneratedFrame, Generator, sibling
-from trackscan.generators.config import PromoleculeConfig
+from trackscan.generators.base import GeneratedFrame, Generator, check_grid_size, sibling
+from trackscan.io.generator_config import PromoleculeConfig
 from trackscan.io.cube import write_cube
 from trackscan.promolecule import MODEL_LABEL, promolecule_grid
 
@@ -31,8 +31,6 @@ class PromoleculeGenerator(Generator):
     line say so.
     """
 
-    is_model = True
-
     def __init__(self, drive, options: PromoleculeConfig = PromoleculeConfig()):
         if drive is None:
             raise ValueError("the promolecular model needs a geometry drive")
@@ -45,6 +43,8 @@ class PromoleculeGenerator(Generator):
     def generate(self, value: float, cube_path, workdir=None) -> GeneratedFrame:
         cube_path = Path(cube_path)
         geom = self.geometry(value)
+        check_grid_size(geom.positions, spacing=self.options.spacing, margin=self.options.margin,
+                        value=value, path=cube_path)
         grid = promolecule_grid(geom.numbers, geom.positions, spacing=self.options.spacing,
                                 margin=self.options.margin, source=str(cube_path))
         xyz = sibling(cube_path, ".xyz")

@@ -33,8 +33,8 @@ import numpy as np
 
 from trackscan.elements import symbol
 from trackscan.errors import ConfigError, GeneratorError, InputError
-from trackscan.generators.base import GeneratedFrame, Generator, sibling
-from trackscan.generators.config import PySCFConfig
+from trackscan.generators.base import GeneratedFrame, Generator, check_grid_size, sibling
+from trackscan.io.generator_config import PySCFConfig
 from trackscan.io.atomic import write_bytes_atomic
 from trackscan.io.cube import read_cube
 from trackscan.units import BOHR_IN_ANGSTROM
@@ -206,6 +206,8 @@ class PySCFGenerator(Generator):
         cache = self.options.cache if self.options.cache is not None else workdir / "pyscf-cache"
         cache.mkdir(parents=True, exist_ok=True)
         geom = self.geometry(value)
+        check_grid_size(geom.positions, spacing=self.options.spacing, margin=self.options.margin,
+                        value=value, path=cube_path)
         xyz = sibling(cube_path, ".xyz")
         self.write_geometry(value, xyz)
         key = self.cache_key(geom)

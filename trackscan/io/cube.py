@@ -24,6 +24,7 @@ from __future__ import annotations
 import bz2
 import gzip
 import lzma
+import math
 import os
 import warnings
 from pathlib import Path
@@ -33,6 +34,7 @@ import numpy as np
 from trackscan.errors import InputError, ParseError
 from trackscan.grid import DensityGrid
 from trackscan.io.atomic import atomic_open
+from trackscan.io.filecheck import regular_file_problem
 from trackscan.units import ANGSTROM_IN_BOHR
 
 __all__ = ["read_cube", "read_cube_header", "write_cube", "parse_cube_header", "CubeHeader",
@@ -42,6 +44,23 @@ DEFAULT_MAX_POINTS = 512 ** 3
 """Largest grid (points times datasets) a cube may claim before it is refused unread."""
 
 _OPENERS = {".gz": gzip.open, ".bz2": bz2.open, ".xz": lzma.open}
+
+MAX_HEADER_MAGNITUDE = 1e6
+"""Largest magnitude of a coordinate, step or charge in a header (bohr or Å):
+larger ones are damage (1e300 overflows the geometry)."""
+
+MAX_HEADER_BYTES = 1 << 24
+"""Longest header read (16 MiB: 100000 atom lines of 80 characters fit in half).
+A longer one is refused, so a file without line breaks is never read whole."""
+
+MAX_BYTES_PER_VALUE = 40
+"""Longest text one value of the block may take on average, separators included
+(``%.16E`` values with a space take 24).  The value block is read, decompressed,
+only up to this many bytes per value the header's grid needs, so a compressed
+file that inflates to far more than its grid (a decompression bomb) is refused
+after reading a bounded amount."""
+
+_BODY_SLACK = 1 << 16   # bytes allowed beyond the per-value bound (trailing blank lines)
 
 
 class CubeHeader:
@@ -79,8 +98,8 @@ class CubeHeader:
 
     @property
     def n_points(self) -> int:
-        """Number of grid points."""
-        return int(np.prod(self.counts, dtype=np.int64))
+        """Number of grid points (exact: Python integers cannot wrap)."""
+        return math.prod(int(c) for c in self.counts)
 
 
 def _numbers(line: str, lineno: int, path, what: str, n_min: int, n_max: int,
@@ -99,6 +118,9 @@ def _numbers(line: str, lineno: int, path, what: str, n_min: int, n_max: int,
                 v = float(p.replace("D", "E").replace("d", "e"))
                 if not np.isfinite(v):
                     raise ValueError
+                if abs(v) > MAX_HEADER_MAGNITUDE:
+                    raise ParseError(f"number {p} out of range ({what}; the magnitude must "
+                                     f"not pass {MAX_HEADER_MAGNITUDE:g})", path, lineno)
                 out.append(v)
         except ValueError:
             raise ParseError(f"not a valid number {p!r} ({what})", path, lineno) from None
@@ -156,6 +178,9 @@ def parse_cube_header(lines, *, path=None, max_points: int = DEFAULT_MAX_POINTS)
         n = int(vals[0])
         if n == 0:
             raise ParseError(f"axis {a + 1} has zero points", path, 4 + a)
+        if abs(n) > max_points:
+            raise ParseError(f"axis {a + 1} claims {abs(n)} points, more than the ceiling of "
+                             f"{max_points} values (raise max_points to read it)", path, 4 + a)
         signs.append(n < 0)
         counts[a] = abs(n)
         axes[a] = vals[1:4]
@@ -167,7 +192,7 @@ def parse_cube_header(lines, *, path=None, max_points: int = DEFAULT_MAX_POINTS)
         volume = abs(np.linalg.det(axes))
     if not volume > 1e-14:
         raise ParseError("the three step vectors are linearly dependent (zero cell volume)", path, 4)
-    total = int(np.prod(counts, dtype=np.int64)) * nval
+    total = math.prod(int(c) for c in counts) * nval
     if total > max_points:
         raise ParseError(f"header claims {'x'.join(map(str, counts))} = {total} values, more than "
                          f"the ceiling of {max_points} (raise max_points to read it)", path, 4)
@@ -214,7 +239,7 @@ def parse_cube_header(lines, *, path=None, max_points: int = DEFAULT_MAX_POINTS)
         dataset_ids = rest
         nval = m
         header_lines = k
-        total = int(np.prod(counts, dtype=np.int64)) * nval
+        total = math.prod(int(c) for c in counts) * nval
         if total > max_points:
             raise ParseError(f"header claims {total} values, more than the ceiling of {max_points}",
                              path, header_lines)
@@ -229,14 +254,20 @@ def parse_cube_header(lines, *, path=None, max_points: int = DEFAULT_MAX_POINTS)
 
 
 _HEAD_CHUNK = 1 << 16
+_FORTRAN_EXPONENT = bytes.maketrans(b"Dd", b"Ee")
 
 
 def _open(path: Path):
-    """Open a cube (decompressing by suffix) for binary reading, or raise InputError."""
-    if not path.exists():
-        raise InputError("no such file", path)
-    if path.is_dir():
+    """Open a cube (decompressing by suffix) for binary reading, or raise InputError.
+
+    Only regular files are opened (checked with ``os.stat`` first): a FIFO
+    would block and a device would never end.
+    """
+    problem = regular_file_problem(path)
+    if problem == "is a directory":
         raise InputError("is a directory, not a cube file", path)
+    if problem is not None:
+        raise InputError(problem, path)
     opener = _OPENERS.get(path.suffix.lower(), open)
     try:
         return opener(path, "rb")
@@ -261,11 +292,21 @@ def _read_errors(path: Path):
     return guard()
 
 
-def _read_header(fh, path: Path, max_points: int):
-    """Parse the header from the start of an open file; ``(header, byte offset of values)``.
+def _line_break(head: bytes) -> bytes:
+    """The line break of a file: ``\\n`` (also for CRLF), or ``\\r`` for CR-only files."""
+    return b"\r" if b"\n" not in head and b"\r" in head else b"\n"
 
-    Reads growing chunks until the header is complete, so a file's value
-    block is never read here.
+
+def _read_header(fh, path: Path, max_points: int):
+    """Parse the header from the start of an open file.
+
+    Reads growing chunks (at most :data:`MAX_HEADER_BYTES`) until the header
+    is complete, so a file's value block is never read here.
+
+    Returns
+    -------
+    (CubeHeader, int, bytes)
+        The header, the byte offset of the values and the line break.
     """
     size = _HEAD_CHUNK
     while True:
@@ -273,7 +314,8 @@ def _read_header(fh, path: Path, max_points: int):
         head = fh.read(size)
         if not head.strip():
             raise ParseError("empty file", path)
-        lines = head.decode("latin-1").split("\n")
+        brk = _line_break(head)
+        lines = head.decode("latin-1").split(brk.decode())
         complete = len(head) < size
         try:
             header = parse_cube_header(lines if complete else lines[:-1], path=path,
@@ -281,19 +323,28 @@ def _read_header(fh, path: Path, max_points: int):
         except ParseError as exc:
             if complete or "file ends in the header" not in exc.message:
                 raise
+            _grow(size, len(lines), path)
             size *= 4
             continue
         offset = 0
         for _ in range(header.header_lines):
-            nl = head.find(b"\n", offset)
+            nl = head.find(brk, offset)
             if nl < 0:
                 if complete:
                     raise ParseError("file ends in the header", path, header.header_lines)
                 break
             offset = nl + 1
         else:
-            return header, offset
+            return header, offset, brk
+        _grow(size, len(lines), path)
         size *= 4
+
+
+def _grow(size: int, n_lines: int, path):
+    """Refuse to read more than MAX_HEADER_BYTES while looking for the header's end."""
+    if size >= MAX_HEADER_BYTES:
+        raise ParseError(f"no complete cube header in the first {size} bytes "
+                         f"({n_lines} line(s)): not a cube file", path, None if n_lines > 1 else 1)
 
 
 def read_cube_header(path, *, max_points: int = DEFAULT_MAX_POINTS) -> CubeHeader:
@@ -314,12 +365,17 @@ def read_cube_header(path, *, max_points: int = DEFAULT_MAX_POINTS) -> CubeHeade
         return _read_header(fh, path, max_points)[0]
 
 
-def _locate_bad_value(body: bytes, first_line: int, path):
+def _body_limit(header: CubeHeader) -> int:
+    """Most bytes the value block of this header may take (see MAX_BYTES_PER_VALUE)."""
+    return header.n_points * header.n_values_per_point * MAX_BYTES_PER_VALUE + _BODY_SLACK
+
+
+def _locate_bad_value(body: bytes, first_line: int, path, brk: bytes = b"\n"):
     """Find the first token of the value block that is not a finite number."""
-    for offset, raw in enumerate(body.split(b"\n")):
+    for offset, raw in enumerate(body.split(brk)):
         for tok in raw.split():
             try:
-                v = float(tok)
+                v = float(tok.replace(b"D", b"E").replace(b"d", b"e"))
             except ValueError:
                 shown = tok.decode("utf-8", "replace")[:30]
                 raise ParseError(f"not a number in the values: {shown!r}", path,
@@ -368,7 +424,7 @@ def read_cube(path, *, dataset: int = 0, max_points: int = DEFAULT_MAX_POINTS) -
     """
     path = Path(path)
     with _read_errors(path), _open(path) as fh:
-        header, offset = _read_header(fh, path, max_points)
+        header, offset, brk = _read_header(fh, path, max_points)
         if header.dataset_ids or header.n_values_per_point > 1:
             nval = header.n_values_per_point
             if not 0 <= dataset < nval:
@@ -378,32 +434,43 @@ def read_cube(path, *, dataset: int = 0, max_points: int = DEFAULT_MAX_POINTS) -
         elif dataset != 0:
             raise InputError(f"dataset index {dataset} requested but the file holds one dataset",
                              path)
-        # the value block, read once (no copy of the whole file's bytes)
+        # the value block, read once (no copy of the whole file's bytes), and
+        # never more of it than the grid can need (a decompression bomb stops here)
         fh.seek(offset)
-        body = fh.read()
+        limit = _body_limit(header)
+        body = fh.read(limit + 1)
+        if len(body) > limit:
+            raise ParseError(f"the values take more than {limit} bytes, far more than a "
+                             f"{'x'.join(map(str, header.counts))} grid needs (a damaged or "
+                             "hostile file)", path)
     expected = header.n_points * header.n_values_per_point
     first_line = header.header_lines + 1
+    text = body
+    if b"D" in body or b"d" in body:
+        # Fortran double-precision exponents (1.0D-03), as in the header; errors
+        # still quote the file's own text
+        body = body.translate(_FORTRAN_EXPONENT)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         try:
             values = np.fromstring(body, dtype=np.float64, sep=" ")
         except ValueError:  # numpy >= 2.3 refuses unparsable text outright
-            _locate_bad_value(body, first_line, path)
+            _locate_bad_value(text, first_line, path, brk)
             raise ParseError("unparsable text in the values", path) from None
     if values.size != expected:
         if values.size < expected:
             # either truncated or a token stopped the parser: find out which
-            _locate_bad_value(body, first_line, path)
-            n_lines = body.count(b"\n") + (0 if body.endswith(b"\n") else 1)
+            _locate_bad_value(text, first_line, path, brk)
+            n_lines = text.count(brk) + (0 if text.endswith(brk) else 1)
             raise ParseError(f"truncated: expected {expected} values for a "
                              f"{'x'.join(map(str, header.counts))} grid, found {values.size}",
                              path, header.header_lines + n_lines)
         raise ParseError(f"too many values: expected {expected} for a "
                          f"{'x'.join(map(str, header.counts))} grid, found {values.size}", path)
     if not np.isfinite(values).all():
-        _locate_bad_value(body, first_line, path)
+        _locate_bad_value(text, first_line, path, brk)
         raise ParseError("non-finite value in the density values", path)
-    del body
+    del body, text
     nval = header.n_values_per_point
     if nval > 1:
         values = np.ascontiguousarray(values.reshape(-1, nval)[:, dataset])

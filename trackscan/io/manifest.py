@@ -43,8 +43,12 @@ from trackscan.coordinates import COORDINATE_KINDS, default_tolerance, differenc
 from trackscan.errors import ConfigError, InputError, ParseError
 from trackscan.io.atomic import write_text_atomic
 from trackscan.io.cube import DEFAULT_MAX_POINTS, read_cube_header
+from trackscan.io.filecheck import path_problem, regular_file_problem
+from trackscan.io.generator_config import parse_generator_config
 from trackscan.io.keycheck import KeyChecker
-from trackscan.settings import AnalysisSettings
+from trackscan.model import VALUE_DECIMALS
+from trackscan.io.yamlsafe import MAX_YAML_BYTES, compose_bounded, to_python
+from trackscan.settings import AnalysisSettings, TrackingSettings
 from trackscan.units import UNITS_OF_KIND, angle_factor, canonical_unit, length_factor
 
 __all__ = ["ScanManifest", "Coordinate", "FrameEntry", "load_manifest",
@@ -53,10 +57,15 @@ __all__ = ["ScanManifest", "Coordinate", "FrameEntry", "load_manifest",
 RECORD_NAME = "record.json"
 """File name of the record of generated frames, in the frames directory."""
 
-_TOP_KEYS = ("name", "description", "coordinate", "frames", "periodic", "analysis", "generator")
+_TOP_KEYS = ("name", "description", "coordinate", "frames", "periodic", "analysis", "tracking",
+             "generator")
 _COORD_KEYS = ("label", "unit", "tolerance") + tuple(COORDINATE_KINDS)
 _FRAME_KEYS = ("file", "value", "energy")
 _FRAMES_MAP_KEYS = ("glob", "values", "directory")
+
+MAX_DESCRIPTION_CHARS = 20_000
+"""Longest ``description`` (it is copied into scan.json and every report);
+a longer one is refused, not cut, so nothing the user wrote is dropped unseen."""
 
 
 @dataclass(frozen=True)
@@ -146,6 +155,8 @@ class ScanManifest:
         Sorted by coordinate value.
     periodic : bool
     analysis : AnalysisSettings
+    tracking : TrackingSettings
+        The ``tracking`` section (matching gates, significance, direction).
     generator : object or None
         Parsed ``generator`` section (see :mod:`trackscan.generators`).
     generator_raw : dict or None
@@ -161,6 +172,7 @@ class ScanManifest:
     frames: tuple
     periodic: bool = False
     analysis: AnalysisSettings = field(default_factory=AnalysisSettings)
+    tracking: TrackingSettings = field(default_factory=TrackingSettings)
     generator: object = None
     generator_raw: dict | None = None
     frames_directory: Path | None = None
@@ -175,56 +187,29 @@ class ScanManifest:
 # -- YAML with line numbers ------------------------------------------------
 
 def _compose(text: str, path):
-    try:
-        node = yaml.compose(text, Loader=yaml.SafeLoader)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        lineno = mark.line + 1 if mark is not None else None
-        problem = getattr(exc, "problem", None) or str(exc).splitlines()[0]
-        raise ParseError(f"bad YAML: {problem}", path, lineno) from None
-    return node
+    """The node graph, after the size, nesting and alias limits (trackscan.io.yamlsafe)."""
+    return compose_bounded(text, path)
 
 
 def _to_python(node, lines: dict, keypath: str):
     """Construct Python data from a YAML node, recording each key path's line."""
-    lines[keypath] = node.start_mark.line + 1
-    default_tags = {yaml.MappingNode: "tag:yaml.org,2002:map", yaml.SequenceNode: "tag:yaml.org,2002:seq"}
-    if type(node) in default_tags and node.tag != default_tags[type(node)]:
-        raise ConfigError(f"unsupported YAML tag {node.tag!r}", None, keypath or None,
-                          node.start_mark.line + 1)
-    if isinstance(node, yaml.MappingNode):
-        out = {}
-        for knode, vnode in node.value:
-            key = _scalar(knode)
-            sub = f"{keypath}.{key}" if keypath else str(key)
-            if key in out:
-                raise ConfigError("duplicate key", None, sub, knode.start_mark.line + 1)
-            out[key] = _to_python(vnode, lines, sub)
-        return out
-    if isinstance(node, yaml.SequenceNode):
-        return [_to_python(v, lines, f"{keypath}[{i}]") for i, v in enumerate(node.value)]
-    return _scalar(node)
-
-
-def _scalar(node):
-    loader = yaml.SafeLoader("")
-    try:
-        return loader.construct_object(node, deep=True)
-    except yaml.constructor.ConstructorError as exc:
-        raise ConfigError(f"unsupported YAML value ({exc.problem})", None, None,
-                          node.start_mark.line + 1) from None
-    finally:
-        loader.dispose()
+    return to_python(node, lines, keypath)
 
 
 # -- loading ----------------------------------------------------------------
 
 def _read_text(path: Path) -> str:
-    if not path.exists():
+    problem = regular_file_problem(path)
+    if problem == "no such file":
         raise InputError("no such manifest file", path)
-    if path.is_dir():
+    if problem == "is a directory":
         raise InputError("is a directory, not a manifest file", path)
+    if problem is not None:
+        raise InputError(problem, path)
     try:
+        if path.stat().st_size > MAX_YAML_BYTES:
+            raise InputError(f"the manifest is {path.stat().st_size} bytes long, more than the "
+                             f"{MAX_YAML_BYTES} a scan manifest may take", path)
         return path.read_text(encoding="utf-8")
     except PermissionError:
         raise InputError("permission denied (cannot read the manifest)", path) from None
@@ -324,13 +309,16 @@ def read_frame_record(directory: Path) -> list:
 
 
 def _frames(data, chk: KeyChecker, base: Path, coord: Coordinate, has_generator: bool,
-            max_points: int):
+            max_points: int, direction: str = "auto"):
     entries = []
     frames_dir = base / "frames"
     if isinstance(data, dict):
         chk.mapping(data, "frames", _FRAMES_MAP_KEYS)
         if "directory" in data:
             frames_dir = base / chk.string(data["directory"], "frames.directory")
+            problem = path_problem(frames_dir / generated_frame_name(0.0))
+            if problem is not None:
+                chk.fail("frames.directory", f"{problem}: {frames_dir}")
         if "glob" in data and "values" in data:
             chk.fail("frames", "give either glob or values, not both")
         if "glob" in data:
@@ -349,9 +337,17 @@ def _frames(data, chk: KeyChecker, base: Path, coord: Coordinate, has_generator:
             vals = data["values"]
             if not isinstance(vals, list) or not vals:
                 chk.fail("frames.values", f"expected a non-empty list of numbers, got {vals!r}")
+            names: dict = {}
             for i, v in enumerate(vals):
                 v = chk.number(v, f"frames.values[{i}]")
-                entries.append(FrameEntry(frames_dir / generated_frame_name(v), v, generated=True))
+                name = generated_frame_name(v)
+                if name in names and names[name][1] != v:
+                    j, w = names[name]
+                    chk.fail(f"frames.values[{i}]",
+                             f"{v!r} and frames.values[{j}] = {w!r} give the same frame file "
+                             f"{name}: values must differ within {FRAME_NAME_DECIMALS} decimals")
+                names[name] = (i, v)
+                entries.append(FrameEntry(frames_dir / name, v, generated=True))
         elif not has_generator:
             chk.fail("frames", "expected a list of frames, a glob or values")
     elif isinstance(data, list):
@@ -365,10 +361,13 @@ def _frames(data, chk: KeyChecker, base: Path, coord: Coordinate, has_generator:
             if "file" not in item:
                 chk.fail(f"{key}.file", "missing (each frame needs a cube file)")
             file = base / chk.string(item["file"], f"{key}.file")
-            if not file.exists():
+            problem = regular_file_problem(file)
+            if problem in ("no such file", "no such file (a part of the path is not a folder)"):
                 chk.fail(f"{key}.file", f"frame file not found: {file}")
-            if file.is_dir():
+            if problem == "is a directory":
                 chk.fail(f"{key}.file", f"is a directory, not a cube file: {file}")
+            if problem is not None:
+                chk.fail(f"{key}.file", f"{problem}: {_shorten(file)}")
             if "value" in item:
                 value = chk.number(item["value"], f"{key}.value")
                 _check_listed_value(file, value, coord, chk, key, max_points)
@@ -378,6 +377,11 @@ def _frames(data, chk: KeyChecker, base: Path, coord: Coordinate, has_generator:
             entries.append(FrameEntry(file, value, energy))
     else:
         chk.fail("frames", f"expected a list of frames, a glob or values, got {type(data).__name__}")
+    listed = [e.value for e in entries]
+    if direction == "auto":
+        # frames listed with strictly falling values run the scan downwards
+        direction = ("descending" if len(listed) > 1 and
+                     all(x > y for x, y in zip(listed, listed[1:])) else "ascending")
     # generated frames already on disk
     known = {e.file.resolve() for e in entries}
     for rec in read_frame_record(frames_dir):
@@ -388,7 +392,7 @@ def _frames(data, chk: KeyChecker, base: Path, coord: Coordinate, has_generator:
             continue
         entries.append(FrameEntry(f, float(rec["value"]), rec.get("energy"), generated=True))
         known.add(f)
-    entries.sort(key=lambda e: (e.value, str(e.file)))
+    entries.sort(key=lambda e: (e.value, str(e.file)), reverse=direction == "descending")
     for a, b in zip(entries, entries[1:]):
         if a.value == b.value:
             raise ConfigError(f"two frames share the coordinate value {a.value:g}: "
@@ -422,11 +426,25 @@ def record_generated_frame(manifest, entry: dict) -> Path:
     return path
 
 
-def generated_frame_name(value: float) -> str:
-    """File name of a generated frame at coordinate `value` (stable, sortable)."""
-    from trackscan.model import VALUE_DECIMALS
+FRAME_NAME_DECIMALS = VALUE_DECIMALS
+"""Decimals of the coordinate value in a generated frame's file name."""
 
-    return f"frame_{value:+.{VALUE_DECIMALS}f}.cube".replace("+", "p").replace("-", "m")
+
+def generated_frame_name(value: float) -> str:
+    """File name of a generated frame at coordinate `value` (stable, sortable).
+
+    Values that agree to :data:`FRAME_NAME_DECIMALS` decimals share a name;
+    the manifest refuses such values (refine never proposes them).
+    """
+    return f"frame_{value:+.{FRAME_NAME_DECIMALS}f}.cube".replace("+", "p").replace("-", "m")
+
+
+def _shorten(path, limit: int = 120) -> str:
+    """A path for a message, its middle cut when it is longer than `limit`."""
+    text = str(path)
+    if len(text) <= limit:
+        return text
+    return f"{text[:limit // 2]}...{text[-limit // 2:]} ({len(text)} characters)"
 
 
 def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
@@ -472,6 +490,10 @@ def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
     if "/" in name or "\\" in name or name.startswith("."):
         chk.fail("name", f"must be usable as a folder name, got {name!r}")
     description = chk.string(data["description"], "description") if "description" in data else ""
+    if len(description) > MAX_DESCRIPTION_CHARS:
+        chk.fail("description", f"{len(description)} characters long, more than the "
+                                f"{MAX_DESCRIPTION_CHARS} a description may take (it is copied "
+                                "into every output); put long notes in a file beside the manifest")
     coord = _coordinate(data["coordinate"], chk)
     periodic = chk.boolean(data["periodic"], "periodic") if "periodic" in data else False
     analysis_raw = data.get("analysis") or {}
@@ -481,6 +503,13 @@ def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
         settings = AnalysisSettings.from_mapping(analysis_raw, path=path)
     except ConfigError as exc:
         raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
+    tracking_raw = data.get("tracking") or {}
+    if not isinstance(tracking_raw, dict):
+        chk.fail("tracking", "expected a mapping of settings")
+    try:
+        tracking = TrackingSettings.from_mapping(tracking_raw, path=path)
+    except ConfigError as exc:
+        raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
     gen_raw = data.get("generator")
     generator = None
     if gen_raw is not None:
@@ -488,16 +517,15 @@ def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
         generator = _parse_generator(gen_raw, path, lines)
     ceiling = max_points if max_points is not None else settings.max_points
     frames, frames_dir = _frames(data["frames"], chk, path.parent, coord, gen_raw is not None,
-                                 ceiling or DEFAULT_MAX_POINTS)
+                                 ceiling or DEFAULT_MAX_POINTS, direction=tracking.direction)
     return ScanManifest(path=path, name=name, coordinate=coord, frames=frames, periodic=periodic,
-                        analysis=settings, generator=generator, generator_raw=gen_raw,
+                        analysis=settings, tracking=tracking, generator=generator,
+                        generator_raw=gen_raw,
                         frames_directory=frames_dir, description=description)
 
 
 def _parse_generator(raw, path, lines):
-    """Validate the ``generator`` section with the generators package."""
-    from trackscan.generators.config import parse_generator_config
-
+    """Validate the ``generator`` section (:mod:`trackscan.io.generator_config`)."""
     try:
         return parse_generator_config(raw, path=path)
     except ConfigError as exc:

@@ -15,17 +15,13 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from trackscan.elements import symbol
-from trackscan.errors import InputError, ParseError
+from trackscan.errors import InputError, ParseError, ScanFormatError
 from trackscan.units import unit_symbol
 
 __all__ = ["ScanData", "load_scan", "CP_KINDS", "atom_label", "frame_energy", "cp_by_id"]
 
 #: Critical-point kinds of the contract, in the order the report lists them.
 CP_KINDS = ("nuclear", "non_nuclear", "bond", "ring", "cage", "degenerate")
-
-
-class ScanFormatError(InputError):
-    """A scan result lacks a key the report needs, or has the wrong type."""
 
 
 def atom_label(atom) -> str:

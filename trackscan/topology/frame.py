@@ -12,17 +12,20 @@ from __future__ import annotations
 import logging
 import time
 from dataclasses import dataclass, field as dc_field
+from functools import cached_property
 
 import networkx as nx
 import numpy as np
 
 from trackscan.elements import symbol
+from trackscan.errors import DegenerateDensityError
 from trackscan.grid import DensityGrid
 from trackscan.progress import report as progress_report
 from trackscan.settings import AnalysisSettings
 from trackscan.topology.connect import connect_points, end_key
 from trackscan.topology.envelope import DensityEnvelope
-from trackscan.topology.graph import build_graph
+from trackscan.topology.graph import molecular_graph
+from trackscan.topology.limits import check_analysable, density_warnings
 from trackscan.topology.newton import merge_points
 from trackscan.topology.results import COUNT_KEYS, ID_PREFIX, KINDS, CriticalPoint, fix, sig
 from trackscan.topology.retry import RETRY_SEED_FACTOR, targeted_seeds
@@ -77,7 +80,6 @@ class FrameTopology:
 
     critical_points: list
     bond_paths: list
-    graph: nx.MultiGraph
     numbers: np.ndarray
     positions: np.ndarray
     grid_info: dict
@@ -89,6 +91,17 @@ class FrameTopology:
     seeding_level: int = 0
     timings: dict = dc_field(default_factory=dict)
     seed_counts: dict = dc_field(default_factory=dict)
+
+    def to_frame(self):
+        """The frame as a :class:`trackscan.model.Frame` (not yet placed in a scan)."""
+        from trackscan.model import Frame
+
+        return Frame.from_dict(self.to_dict(), self.source or "frame")
+
+    @cached_property
+    def graph(self) -> nx.MultiGraph:
+        """Molecular graph (see :mod:`trackscan.topology.graph`)."""
+        return molecular_graph(self.to_frame())
 
     @property
     def counts(self) -> dict:
@@ -307,12 +320,15 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
 
     report("field")
     label = FIELD_LABEL
+    doubts = []
     if field is None:
+        check_analysable(grid)       # too few points, or a plateau: refused, not traced
         field = GridField(grid, subtract_promolecule=settings.subtract_promolecule)
         if field.model is not None:
             label = FIELD_LABEL + ", core promolecule subtracted"
         elif np.any(field.core_radii > 0):
             label = FIELD_LABEL + ", core samples smoothed"
+        doubts = density_warnings(grid, field)   # said once the search is known to be bounded
     else:
         label = type(field).__name__
     timings["field"] = time.perf_counter() - t0
@@ -336,6 +352,8 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
                                   region.wrap(maxima))
     cps, ph, level = search["cps"], search["poincare_hopf"], search["level"]
     timings["critical_points"] = time.perf_counter() - t1
+    for msg in doubts:
+        warn(msg)
     complete = bool(ph["holds"])
     n_deg = sum(cp.kind == "degenerate" for cp in cps)
     if not complete and n_deg:
@@ -373,10 +391,15 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
     core = getattr(field, "core_radii", None)
     if core is not None and len(core) == grid.n_atoms:
         excl = excl + np.where(core > 0, 0.5 * float(np.min(grid.spacing)), 0.0)
-    paths = connect_points(field, nuclear, attractors, by["bond"], by["ring"], by["cage"],
-                           region=region, settings=settings, label_of=label_of,
-                           nuclear_radii=[excl[cp.atoms[0] - 1] for cp in nuclear],
-                           nuclear_maxima=maxima)
+    try:
+        paths = connect_points(field, nuclear, attractors, by["bond"], by["ring"], by["cage"],
+                               region=region, settings=settings, label_of=label_of,
+                               nuclear_radii=[excl[cp.atoms[0] - 1] for cp in nuclear],
+                               nuclear_maxima=maxima)
+    except DegenerateDensityError as exc:   # the path-step cap (limits.py): name the file
+        if exc.path is None and grid.source:
+            raise DegenerateDensityError(exc.message, grid.source) from None
+        raise
     timings["paths"] = time.perf_counter() - t2
     # deterministic ids
     order = sorted(range(len(by["bond"])),
@@ -403,10 +426,9 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
                + ", ".join(bp.cp.id for bp in open_paths))
         warn(msg)
     all_cps = nuclear + attractors + bonds + rings_sorted + cages + degenerate
-    graph = build_graph(all_cps, paths, grid.numbers, complete=complete)
     timings["total"] = time.perf_counter() - t0
     report("done")
-    return FrameTopology(critical_points=all_cps, bond_paths=paths, graph=graph,
+    return FrameTopology(critical_points=all_cps, bond_paths=paths,
                          numbers=np.array(grid.numbers), positions=np.array(grid.positions),
                          grid_info=_grid_info(grid), poincare_hopf=ph, complete=complete,
                          warnings=warnings, source=grid.source, field=label,

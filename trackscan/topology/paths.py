@@ -29,6 +29,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from trackscan.errors import DegenerateDensityError
+from trackscan.topology.limits import MAX_PATH_STEPS
+
 __all__ = ["trace_paths", "PathBundle", "OPEN", "TARGET"]
 
 TARGET = "target"
@@ -114,6 +117,7 @@ def trace_paths(field, starts, *, uphill: bool = True, targets=None, radii=None,
     backwards = np.zeros(p, dtype=np.int64)   # accepted steps on which rho did not progress
     last_v = np.full(p, -np.inf if uphill else np.inf)
     active = np.ones(p, dtype=bool)
+    total_steps = 0
 
     def finish(idx, why):
         for i in idx:
@@ -140,6 +144,11 @@ def trace_paths(field, starts, *, uphill: bool = True, targets=None, radii=None,
         fac = np.clip(0.9 * (tol / np.maximum(err, 1e-300)) ** (1.0 / 3.0), 0.2, 4.0)
         h[idx] = np.clip(hi[:, 0] * fac, _HMIN, _HMAX)
         acc = idx[ok]
+        total_steps += len(acc)
+        if total_steps > MAX_PATH_STEPS:
+            raise DegenerateDensityError(
+                f"degenerate or noisy density: gradient paths took more than {MAX_PATH_STEPS} "
+                f"steps ({p} paths)")
         y[acc] = y3[ok]
         k1[acc] = a4[ok]
         steps[acc] += 1

@@ -21,6 +21,7 @@ import logging
 
 import numpy as np
 
+from trackscan.topology.limits import SEEDS_PER_CP, check_count, critical_point_cap
 from trackscan.topology.newton import merge_points, newton_search, outside_nuclear_spheres
 from trackscan.topology.properties import (abramov_energy_densities, canonical_eigenvectors,
                                            classify, ellipticity)
@@ -284,6 +285,9 @@ def find_critical_points(field, grid, settings, region, *, level: int = 0,
     kept = None if envelope is None else envelope.kept()
     u = grid_seeds(grid.values, floor=settings.density_floor, lo=region.lo, hi=region.hi,
                    periodic=region.periodic, level=level, kept=kept)
+    cap = critical_point_cap(grid.n_atoms)
+    if level == 0:   # bounded work: noise has seeds in most cells (limits.py)
+        check_count(len(u), SEEDS_PER_CP * cap, "first-pass seeds", grid)
     seeds = [grid.position(u)]
     real = grid.numbers > 0
     seeds.append(atom_seeds(grid.positions[real], level=level))
@@ -339,6 +343,7 @@ def converge_seeds(field, grid, settings, region, x0, *, envelope=None,
         return x, n_seeds
     g = np.linalg.norm(field.evaluate(x, 1)[1], axis=1)
     keep = merge_points(x, g, settings.xtol, cell=region.cell)
+    check_count(len(keep), critical_point_cap(grid.n_atoms), "critical points", grid)
     return x[keep], n_seeds
 
 

@@ -361,8 +361,7 @@ def find_changes(views, tracks, matches, aligned, keys, graphs, structures, *, s
             "structures": [structures[k], structures[k + 1]],
             "mechanism": mechanism,
             "events": events,
-            "structure_type_changed": not same_structure_type(graphs[k], graphs[k + 1],
-                                                              keys[k], keys[k + 1]),
+            "structure_type_changed": not same_structure_type(graphs[k], graphs[k + 1]),
             "resolution": resolution,
         }
         if not resolution["resolved"]:

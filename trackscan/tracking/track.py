@@ -146,8 +146,8 @@ def track_scan(frames, *, settings=None, unit=""):
     matches = [match_step(views[k], views[k + 1], aligned[k], aligned[k + 1], settings=settings)
                for k in range(len(views) - 1)]
     tracks = assign_tracks(views, matches)
-    keys = [structure_key(v, t) for v, t in zip(views, tracks)]
     graphs = [frame_graph(v, t) for v, t in zip(views, tracks)]
+    keys = [structure_key(g) for g in graphs]
     structures = number_structures(keys)
     changes, _ = find_changes(views, tracks, matches, aligned, keys, graphs, structures,
                               settings=settings)
