@@ -54,7 +54,7 @@ def test_import_trackscan_stays_light():
                          check=True, cwd=README.parent).stdout.strip()
     assert out == "[]"
     assert set(trackscan.__all__) >= {"read_cube", "analyze_frame", "analyze_scan", "load_scan",
-                                      "load_manifest", "refine"}
+                                      "load_manifest", "refine_scan"}
     for name in trackscan.__all__[1:]:
         doc = getattr(trackscan, name).__doc__
         assert "Parameters" in doc or "Returns" in doc, name
@@ -93,3 +93,13 @@ def test_analyze_frame_takes_a_path_and_a_settings_mapping(c3_folder):
     assert "Poincaré–Hopf holds" in repr(topo) and topo.counts["ring"] == 0
     with pytest.raises(ConfigError, match="density_flor"):
         trackscan.analyze_frame(c3_folder / "cubes" / "f2.cube", {"density_flor": 1e-3})
+
+
+def test_refine_scan_needs_a_generator(c3_folder, monkeypatch):
+    from trackscan.errors import InputError
+
+    monkeypatch.chdir(c3_folder)
+    if not (c3_folder / "scan.yaml").exists():
+        assert main(["init", "cubes", "--distance", "1", "2", "--name", "c3"]) == 0
+    with pytest.raises(InputError, match="generator"):
+        trackscan.refine_scan("scan.yaml", tolerance=0.01)

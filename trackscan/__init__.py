@@ -19,8 +19,8 @@ The functions (:mod:`trackscan.api`) are imported on first use, so
 
 __version__ = "0.1.0"
 
-_API = ("read_cube", "analyze_frame", "load_manifest", "analyze_scan", "load_scan", "refine",
-        "write_scan")
+_API = ("read_cube", "analyze_frame", "load_manifest", "analyze_scan", "load_scan",
+        "refine_scan", "write_scan")
 
 __all__ = ["__version__", *_API]
 

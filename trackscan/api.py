@@ -23,7 +23,7 @@ import os
 from pathlib import Path
 
 __all__ = ["read_cube", "analyze_frame", "load_manifest", "analyze_scan", "load_scan",
-           "refine", "write_scan"]
+           "refine_scan", "write_scan"]
 
 
 def read_cube(path, *, dataset: int = 0, max_points: int | None = None):
@@ -204,9 +204,12 @@ def load_scan(scan):
     return ScanResult.from_dict(data)
 
 
-def refine(manifest, *, tolerance: float, max_evaluations: int | None = None, jobs: int = 1,
-           out_dir=None, progress=None):
+def refine_scan(manifest, *, tolerance: float, max_evaluations: int | None = None,
+                jobs: int = 1, out_dir=None, progress=None):
     """Narrow every change bracket with new frames from the manifest's generator.
+
+    (Named ``refine_scan`` because ``trackscan.refine`` is the refinement
+    package.)
 
     Parameters
     ----------

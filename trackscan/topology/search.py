@@ -28,7 +28,8 @@ from trackscan.topology.properties import (abramov_energy_densities, canonical_e
 from trackscan.topology.results import CriticalPoint
 from trackscan.topology.seeds import atom_seeds, grid_seeds
 
-__all__ = ["Region", "find_critical_points", "converge_seeds", "outside_nuclear_spheres", "nuclear_points", "describe_points",
+__all__ = ["Region", "find_critical_points", "converge_seeds", "outside_nuclear_spheres",
+           "nuclear_points", "describe_points",
            "exclusion_radii", "nuclear_maxima", "ATTACH_RADIUS"]
 
 logger = logging.getLogger(__name__)
@@ -368,7 +369,9 @@ def describe_points(field, x, settings, *, envelope=None) -> list:
     rank, signature, kinds = classify(lam, settings.degenerate_tol)
     gn = np.linalg.norm(g, axis=1)
     low = v < settings.density_floor
-    enclosed = envelope.inside(x) if envelope is not None and np.any(low) else np.zeros(len(x), bool)
+    enclosed = np.zeros(len(x), dtype=bool)
+    if envelope is not None and np.any(low):
+        enclosed = envelope.inside(x)
     out = []
     for i in range(len(x)):
         if low[i] and not enclosed[i]:
