@@ -6,7 +6,7 @@ import time
 import numpy as np
 import pytest
 
-from trackscan.errors import GeneratorError
+from trackscan.errors import ConfigError, GeneratorError
 from trackscan.generators import make_generator
 from trackscan.io.generator_config import parse_generator_config
 from trackscan.io.cube import read_cube
@@ -126,11 +126,20 @@ def test_timeout(scan):
 
 
 def test_missing_program(scan):
+    # a bad-input error (exit code 2) naming the manifest and the key, found by check() too
     mapping = {"command": ["no-such-program-xyz", "{cube}"]}
     gen = make_generator(parse_generator_config(mapping, path=scan / "scan.yaml"))
-    with pytest.raises(GeneratorError, match="not found on PATH"):
+    with pytest.raises(ConfigError, match="generator.command: program 'no-such-program-xyz' "
+                                          "not found on PATH"):
+        gen.check()
+    with pytest.raises(ConfigError, match="not found on PATH"):
         gen.generate(1.0, scan / "f.cube")
     mapping = {"command": ["./missing.sh", "{cube}"]}
     gen = make_generator(parse_generator_config(mapping, path=scan / "scan.yaml"))
-    with pytest.raises(GeneratorError, match="program not found"):
+    with pytest.raises(ConfigError, match="program not found"):
         gen.generate(1.0, scan / "f.cube")
+    (scan / "plain.sh").write_text("#!/bin/sh\n")          # exists, not executable
+    mapping = {"command": ["./plain.sh", "{cube}"]}
+    gen = make_generator(parse_generator_config(mapping, path=scan / "scan.yaml"))
+    with pytest.raises(ConfigError, match="not executable"):
+        gen.check()

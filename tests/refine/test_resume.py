@@ -29,12 +29,20 @@ VALUES = [2.6, 2.7, 2.8, 2.9, 3.0]
 
 
 class LoggingGenerator:
-    """Delegates to a real generator; records calls; may fail on call `fail_at`."""
+    """Delegates to a real generator; records refine calls; may fail on call `fail_at`.
+
+    (The scan's own frames, listed by value, are made by it too; they are
+    not counted.)
+    """
 
     def __init__(self, inner, fail_at=None):
         self.inner, self.fail_at, self.calls = inner, fail_at, []
+        self.has_geometry = inner.has_geometry
+        self.geometry = inner.geometry
 
     def generate(self, value, cube_path, workdir=None):
+        if value in VALUES:
+            return self.inner.generate(value, cube_path, workdir=workdir)
         self.calls.append(value)
         if self.fail_at is not None and len(self.calls) == self.fail_at:
             raise GeneratorError(f"simulated crash of the calculation at {value}")

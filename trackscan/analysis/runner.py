@@ -238,8 +238,12 @@ def _run(calls, *, jobs, dask):
         for k, args in enumerate(calls):
             yield k, analyse_cube(*args)
         return
+    from trackscan.analysis.generate import watch_parent
+
     workers = min(jobs, len(calls))
-    with ProcessPoolExecutor(max_workers=workers, mp_context=worker_context()) as pool:
+    # workers end when this process dies, even by SIGKILL (they watch it)
+    with ProcessPoolExecutor(max_workers=workers, mp_context=worker_context(),
+                             initializer=watch_parent, initargs=(os.getpid(),)) as pool:
         queue = iter(enumerate(calls))
         pending = {}
 

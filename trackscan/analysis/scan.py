@@ -4,33 +4,26 @@ from __future__ import annotations
 
 import logging
 import os
-from concurrent.futures import ProcessPoolExecutor, as_completed
 from pathlib import Path
 
-from trackscan.analysis.runner import analyse_frames, worker_context
+from trackscan.analysis.runner import analyse_frames
 from trackscan.errors import InputError
-from trackscan.io.manifest import record_generated_frame
 from trackscan.progress import report
 
-__all__ = ["analyze_scan", "ensure_frames"]
+__all__ = ["analyze_scan", "ensure_frames", "prepare_frames"]
 
 logger = logging.getLogger(__name__)
 
 
-def _generate(gen, value, path):
-    """Worker: make one frame's cube (module level, so it pickles); its energy."""
-    made = gen.generate(value, path)
-    return value, getattr(made, "energy", None)
+def prepare_frames(manifest, *, jobs=1, progress=None, generator=None):
+    """Make every frame of the manifest available; the manifest to use and its source.
 
-
-def _record(manifest, entry, energy) -> None:
-    """Enter a generated frame (and its energy) in the manifest's record."""
-    record_generated_frame(manifest, {"file": Path(entry.file).name, "value": float(entry.value),
-                                      "energy": energy})
-
-
-def ensure_frames(manifest, *, jobs=1, progress=None) -> str:
-    """Generate the manifest's missing generated frames; name the density source.
+    First the frames folder is tidied after an interrupted run (temporary
+    files deleted, finished but unrecorded frames adopted; when no other
+    run is writing it), and the manifest is read again when that gained a
+    frame.  Then the missing generated frames are made by
+    :func:`trackscan.analysis.generate.generate_frames` (the path refine
+    uses too): recorded as they finish, the frames folder locked meanwhile.
 
     Parameters
     ----------
@@ -38,52 +31,59 @@ def ensure_frames(manifest, *, jobs=1, progress=None) -> str:
     jobs : int
         Worker processes for the generator (1: in this process).
     progress : callable, optional
+    generator : Generator, optional
+        Default: built from the manifest's ``generator`` section.
 
     Returns
     -------
-    str
+    manifest : ScanManifest
+        `manifest`, or the same manifest read again.
+    source : str
         One line naming the density source (the generator's description, or
         ``"cube files"``).
 
     Raises
     ------
     InputError
-        A listed cube file is missing and no generator can make it.
+        A listed cube file is missing and no generator can make it; the
+        generator's program does not exist; the frames folder is in use.
     GeneratorError
         The generator failed.
     """
-    missing = [e for e in manifest.frames if not Path(e.file).is_file()]
-    gen = None
-    if manifest.generator is not None:
+    from trackscan.analysis.generate import FrameTask, generate_frames, tidy_frames_folder
+
+    gen = generator
+    if gen is None and manifest.generator is not None:
         from trackscan.generators import make_generator
 
         gen = make_generator(manifest.generator, coordinate=manifest.coordinate)
+    if gen is not None and tidy_frames_folder(manifest, gen):
+        from trackscan.io.manifest import load_manifest
+
+        manifest = load_manifest(manifest.path)
+    missing = [e for e in manifest.frames if not Path(e.file).is_file()]
     for e in missing:
         if not e.generated or gen is None:
             raise InputError("frame file does not exist", e.file)
-    total = len(missing)
     if missing:
-        logger.info("generating %d frame(s) with %s", total, gen.describe())
-        report(progress, "generate frames", 0, total)
-    if jobs > 1 and total > 1:
-        with ProcessPoolExecutor(max_workers=min(jobs, total),
-                                 mp_context=worker_context()) as pool:
-            futures = {pool.submit(_generate, gen, e.value, e.file): e for e in missing}
-            try:
-                for n, fut in enumerate(as_completed(futures), start=1):
-                    value, energy = fut.result()
-                    _record(manifest, futures[fut], energy)
-                    report(progress, "generate frames", n, total, f"value {value:g}")
-            except BaseException:
-                pool.shutdown(wait=True, cancel_futures=True)
-                raise
-    else:
-        for n, e in enumerate(missing, start=1):
-            _record(manifest, e, _generate(gen, e.value, e.file)[1])
-            report(progress, "generate frames", n, total, f"value {e.value:g}")
-    if gen is not None:
-        return gen.describe()
-    return "cube files"
+        check = getattr(gen, "check", None)
+        if check is not None:
+            check()
+        report(progress, "generate frames", 0, len(missing))
+        generate_frames(manifest, [FrameTask(float(e.value), Path(e.file)) for e in missing],
+                        generator=gen, jobs=jobs, progress=progress)
+    if gen is not None and hasattr(gen, "describe"):
+        return manifest, gen.describe()
+    return manifest, "cube files"
+
+
+def ensure_frames(manifest, *, jobs=1, progress=None, generator=None) -> str:
+    """Generate the manifest's missing generated frames; name the density source.
+
+    :func:`prepare_frames` without the manifest (frames an interrupted run
+    finished are adopted, but only a new :func:`load_manifest` lists them).
+    """
+    return prepare_frames(manifest, jobs=jobs, progress=progress, generator=generator)[1]
 
 
 def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None,
@@ -116,7 +116,7 @@ def analyze_scan(manifest, *, out_dir=None, jobs=1, tracking=None, progress=None
     from trackscan.analysis.runner import check_jobs
 
     check_jobs(jobs)
-    source = ensure_frames(manifest, jobs=jobs, progress=progress)
+    manifest, source = prepare_frames(manifest, jobs=jobs, progress=progress)
     cache_dir = None if out_dir is None else Path(out_dir) / ".cache"
     frames = analyse_frames([e.file for e in manifest.frames], manifest.analysis,
                             periodic=manifest.periodic, jobs=jobs, cache_dir=cache_dir,

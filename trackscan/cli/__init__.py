@@ -5,7 +5,10 @@ Each subcommand is a module in this package with a docstring (its help), an
 registry below lists them; modules are imported only when used.
 
 Exit codes: 0 success, 1 a computation failed, 2 bad input (one line on
-stderr naming the file and the problem; ``--traceback`` shows the trace).
+stderr naming the file and the problem; ``--traceback`` shows the trace),
+130 after SIGINT, 143 after SIGTERM.  SIGTERM (a scheduler ending the job)
+is handled like SIGINT: what finished is recorded, worker processes and
+external programs are stopped, temporary files are removed.
 """
 
 from __future__ import annotations
@@ -15,7 +18,9 @@ import errno
 import importlib
 import logging
 import os
+import signal
 import sys
+import threading
 
 from trackscan import __version__
 from trackscan.errors import InputError, TrackscanError
@@ -92,6 +97,18 @@ def _setup_logging(verbose: int, quiet: bool) -> None:
     root.setLevel(level)
 
 
+class Terminated(KeyboardInterrupt):
+    """SIGTERM arrived: unwinds like Ctrl-C (cleanup runs), exit code 128 + signal."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _on_sigterm(signum, frame):
+    raise Terminated(signum)
+
+
 def main(argv=None) -> int:
     """Run the command line; returns the exit code."""
     parser = _build_parser()
@@ -100,6 +117,17 @@ def main(argv=None) -> int:
         parser.print_help(sys.stderr)
         return EXIT_BAD_INPUT
     _setup_logging(args.verbose, args.quiet)
+    previous = None
+    if threading.current_thread() is threading.main_thread():
+        previous = signal.signal(signal.SIGTERM, _on_sigterm)
+    try:
+        return _main(args)
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
+
+
+def _main(args) -> int:
     try:
         return int(args._run(args) or 0)
     except InputError as exc:
@@ -112,9 +140,11 @@ def main(argv=None) -> int:
             raise
         print(f"trackscan: error: {exc}", file=sys.stderr)
         return EXIT_FAILURE
-    except KeyboardInterrupt:
-        print("trackscan: interrupted", file=sys.stderr)
-        return 130
+    except KeyboardInterrupt as exc:
+        signum = getattr(exc, "signum", signal.SIGINT)
+        print(f"trackscan: interrupted by {signal.Signals(signum).name}; finished frames are "
+              "recorded (run the same command again to continue)", file=sys.stderr)
+        return 128 + signum
     except BrokenPipeError:
         # stdout closed early (e.g. piped into head): stop quietly
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())

@@ -9,6 +9,10 @@ cube file's content, the analysis settings and the trackscan version, so a
 rerun analyses only new or changed frames.  The same input gives the same
 scan.json, byte for byte.  --dask ADDRESS runs the frame analyses on a
 dask.distributed scheduler instead of local processes.
+
+One run at a time writes into DIR (and generates into a frames folder): a
+second run stops at once with one line (exit code 2).  trackscan replaces
+only files it wrote there (listed in DIR/.trackscan-output).
 """
 
 from __future__ import annotations

@@ -1,7 +1,8 @@
 """Validate a scan manifest and the consistency of its frames.
 
 Reads the YAML (keys, types, paths), reads every frame's cube file in full,
-and checks that all frames carry the same atoms in the same order.  Prints
+and checks that all frames carry the same atoms in the same order, and that
+the generator's program (if any) exists and is executable.  Prints
 one line per frame (coordinate value, grid, electron count) and exits 0 when
 everything is readable, 2 with one line naming the problem otherwise.
 """
@@ -20,6 +21,11 @@ def add_arguments(parser) -> None:
 
 def run(args) -> int:
     manifest = load_manifest(args.manifest)
+    if manifest.generator is not None:
+        # the generator can run at all (e.g. its program exists and is executable)
+        from trackscan.generators import make_generator
+
+        make_generator(manifest.generator, coordinate=manifest.coordinate).check()
     coord = manifest.coordinate
     print(f"scan {manifest.name}: {len(manifest.frames)} frames, "
           f"coordinate {coord.label} ({coord.unit})")

@@ -100,28 +100,30 @@ def run(args) -> int:
     if args.tolerance is not None and not args.tolerance > 0:
         raise InputError(f"--tolerance must be > 0, got {args.tolerance:g}")
     src = scans_folder() / args.scan
-    from trackscan.io.output import prepare_output_dir
+    from trackscan.cli.outputs import output_folder
+    from trackscan.io.ownership import claim_path
 
-    out = prepare_output_dir(args.out if args.out else Path("reports") / args.scan)
-    inputs = out / "input"
-    t0 = time.perf_counter()
-    _copy_inputs(src, inputs)
-    manifest = load_manifest(inputs / "scan.yaml")
-    progress = TextProgress()
-    refine_lines = []
-    if args.no_refine:
-        scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress)
-    else:
-        from trackscan.refine.scan import refine_manifest
+    with output_folder(args.out if args.out else Path("reports") / args.scan) as out:
+        inputs = out / "input"
+        t0 = time.perf_counter()
+        claim_path(inputs)                  # copied with shutil: claimed first
+        _copy_inputs(src, inputs)
+        manifest = load_manifest(inputs / "scan.yaml")
+        progress = TextProgress()
+        refine_lines = []
+        if args.no_refine:
+            scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress)
+        else:
+            from trackscan.refine.scan import refine_manifest
 
-        tolerance = args.tolerance or _default_tolerance(manifest)
-        scan, result = refine_manifest(manifest, tolerance=tolerance, jobs=args.jobs,
-                                       out_dir=out, progress=progress)
-        refine_lines = [f"refine: {result.message}; {result.total_evaluations} new frame(s)"]
-    path = out / "scan.json"
-    write_scan(path, scan)
-    files = write_report(path, out, source_dir=inputs)
-    progress.close()
+            tolerance = args.tolerance or _default_tolerance(manifest)
+            scan, result = refine_manifest(manifest, tolerance=tolerance, jobs=args.jobs,
+                                           out_dir=out, progress=progress)
+            refine_lines = [f"refine: {result.message}; {result.total_evaluations} new frame(s)"]
+        path = out / "scan.json"
+        write_scan(path, scan)
+        files = write_report(path, out, source_dir=inputs)
+        progress.close()
     elapsed = time.perf_counter() - t0
     print(f"density source: {scan.scan.density_source}")
     for line in summary_lines(scan) + refine_lines:

@@ -6,15 +6,20 @@ table: kind, position (Å), density, Laplacian and ellipticity, and the atoms
 each point belongs to, followed by the Poincaré–Hopf check
 n − b + r − c (1 for a molecule, 0 for a periodic cell).  A frame that fails
 the check after denser retries is reported as incomplete.  With --json the
-frame is also written as one frame object of the scan.json contract.
+frame is also written as one frame object of the scan.json contract; it
+never replaces the input cube or a file trackscan did not write (the files
+it wrote are listed in the folder's .trackscan-output).
 """
 
 from __future__ import annotations
 
 import json
+import os
+from pathlib import Path
 
-from trackscan.errors import ConfigError
+from trackscan.errors import ConfigError, InputError
 from trackscan.io.atomic import write_text_atomic
+from trackscan.io.ownership import ForeignFileError, guard_folder, read_ownership
 from trackscan.io.cube import DEFAULT_MAX_POINTS, read_cube
 from trackscan.progress import TextProgress
 from trackscan.settings import AnalysisSettings
@@ -38,6 +43,21 @@ def add_arguments(parser) -> None:
                              "core promolecule first")
     parser.add_argument("--max-points", type=int, default=DEFAULT_MAX_POINTS,
                         help="refuse files claiming more grid values (default 512^3)")
+
+
+def _check_json_target(target: Path, cube: Path) -> None:
+    """Refuse a --json path that is the input, or a file trackscan did not write."""
+    if target.exists() and cube.exists() and os.path.samefile(target, cube):
+        raise InputError("--json names the input cube; it would be overwritten (nothing was "
+                         "written)", target)
+    if target.is_dir():
+        raise InputError("--json names a folder, not a file", target)
+    if target.exists():
+        own = read_ownership(target.absolute().parent)
+        rel = None if own is None else own.relative(target)
+        if own is None or rel is None or not own.owns(rel):
+            raise ForeignFileError("trackscan did not write this file and will not replace it "
+                                   "(choose another --json path; nothing was written)", target)
 
 
 def _fmt(x, spec):
@@ -67,6 +87,8 @@ def run(args) -> int:
     settings = AnalysisSettings.from_mapping({}, key_prefix="option", **overrides)
     if args.dataset < 0:
         raise ConfigError(f"--dataset must be >= 0, got {args.dataset}", None, "option.dataset")
+    if args.json:
+        _check_json_target(Path(args.json), Path(args.cube))
     grid = read_cube(args.cube, dataset=args.dataset, max_points=args.max_points)
     if args.periodic and not grid.periodic:
         grid = dataclasses.replace(grid, periodic=True)
@@ -105,6 +127,9 @@ def run(args) -> int:
         print(f"warning: {w}")
     if args.json:
         text = json.dumps(topo.to_dict(index=0), indent=1, sort_keys=False, ensure_ascii=False)
-        write_text_atomic(args.json, text + "\n")
+        target = Path(args.json)
+        with guard_folder(target.absolute().parent, purpose="--json"):
+            _check_json_target(target, Path(args.cube))
+            write_text_atomic(target, text + "\n")
         print(f"wrote {args.json}")
     return 0

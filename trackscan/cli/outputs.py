@@ -2,8 +2,9 @@
 
 ``analyze``, ``refine`` and ``report`` need their output folder (for the
 result cache) before they have read every frame, so bad input may only show
-once the folder exists.  :func:`output_folder` prepares it
-(:func:`trackscan.io.output.prepare_output_dir`) and, when this run created
+once the folder exists.  :func:`output_folder` opens it
+(:func:`trackscan.io.output.open_output_dir`: checked, locked and guarded so
+that only files trackscan wrote there are replaced) and, when this run created
 it and then stops on an :class:`~trackscan.errors.InputError`, removes it
 again: bad input leaves nothing behind.  A folder that existed before is
 never removed.
@@ -17,7 +18,7 @@ import shutil
 from pathlib import Path
 
 from trackscan.errors import InputError
-from trackscan.io.output import prepare_output_dir
+from trackscan.io.output import open_output_dir
 
 __all__ = ["output_folder"]
 
@@ -38,11 +39,11 @@ def output_folder(target):
     """
     target = Path(target)
     created = not target.exists() and not target.is_symlink()
-    out = prepare_output_dir(target)
     try:
-        yield out
+        with open_output_dir(target) as out:
+            yield out
     except InputError:
         if created:
-            logger.debug("bad input: removing the output folder %s made by this run", out)
-            shutil.rmtree(out, ignore_errors=True)
+            logger.debug("bad input: removing the output folder %s made by this run", target)
+            shutil.rmtree(target, ignore_errors=True)
         raise

@@ -18,6 +18,12 @@ frame analyses to a dask.distributed scheduler instead (extra 'dask').
 geometry of each (from generator.geometry) to DIR/suggested/*.xyz; compute
 the densities in your own program, add the cubes to the scan's frames, and
 run it again.
+
+An interrupted refine (an error, SIGINT, SIGTERM, even SIGKILL) repeats no
+finished calculation when rerun: frames are entered in the record before
+they start and settled on the next start.  One run at a time writes into
+DIR and generates into the frames folder; a second stops with one line
+(exit code 2).
 """
 
 from __future__ import annotations

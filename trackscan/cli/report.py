@@ -35,6 +35,8 @@ def run(args) -> int:
     src = Path(args.scan)
     if not src.exists():
         raise InputError("no such scan.json or folder", src)
+    # a folder is trackscan's only when its marker says so: the user's own
+    # report.md next to a copied scan.json is never replaced
     with output_folder(args.out if args.out else (src if src.is_dir() else src.parent)) as out:
         progress = TextProgress()
         files = write_report(src, out, source_dir=args.source_dir,

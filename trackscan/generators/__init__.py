@@ -134,7 +134,7 @@ def make_generator(config: GeneratorConfig, manifest_dir=None, *, coordinate=Non
         return PySCFGenerator(drive, config.options, manifest=manifest)
     if config.source == "command":
         from trackscan.generators.command import CommandGenerator
-        return CommandGenerator(config.options, drive, base_dir=base_dir)
+        return CommandGenerator(config.options, drive, base_dir=base_dir, manifest=manifest)
     raise ValueError(f"unknown generator source {config.source!r}")
 
 

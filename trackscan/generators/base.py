@@ -122,6 +122,10 @@ class Generator(abc.ABC):
     flag, ``grid.density_model`` (:attr:`trackscan.model.Frame.is_model_density`).
     """
 
+    #: Subfolders of the work folder the generator writes besides the cube
+    #: (claimed as trackscan's in the frames folder before it runs).
+    scratch_folders = ()
+
     def __init__(self, drive=None):
         self.drive = drive
 
@@ -129,6 +133,13 @@ class Generator(abc.ABC):
     def has_geometry(self) -> bool:
         """True when :meth:`geometry` can give a geometry."""
         return self.drive is not None
+
+    def check(self) -> None:
+        """Raise :class:`~trackscan.errors.InputError` when the source cannot run at all.
+
+        (A missing or non-executable program.)  Called before any frame is
+        made, and by ``trackscan check``.
+        """
 
     @abc.abstractmethod
     def describe(self) -> str:

@@ -93,6 +93,9 @@ class PySCFGenerator(Generator):
         (checked once, on the drive's first geometry).
     """
 
+    #: Subfolder of the frames folder this generator writes (its cache).
+    scratch_folders = ("pyscf-cache",)
+
     def __init__(self, drive, options: PySCFConfig = PySCFConfig(), *, manifest=None):
         _require()
         self._manifest = manifest
@@ -240,7 +243,7 @@ class PySCFGenerator(Generator):
                      settings=json.dumps(self._settings(), sort_keys=True))
             write_bytes_atomic(npz, buf.getvalue())
         self._remember(value, dm)
-        tmp = cache / f".partial-{key}.cube"
+        tmp = cache / f".partial-{os.getpid()}-{key}.cube"
         try:
             density_dm = dm[0] + dm[1] if np.ndim(dm) == 3 else dm
             cubegen.density(mol, str(tmp), density_dm, resolution=self.options.spacing,
@@ -262,7 +265,7 @@ class PySCFGenerator(Generator):
 def _place(src: Path, dst: Path) -> None:
     """Put a copy (a hard link where possible) of `src` at `dst`, atomically."""
     dst.parent.mkdir(parents=True, exist_ok=True)
-    tmp = dst.with_name(f".partial-{dst.name}")
+    tmp = dst.with_name(f".partial-{os.getpid()}-{dst.name}")
     with contextlib.suppress(FileNotFoundError):
         tmp.unlink()
     try:

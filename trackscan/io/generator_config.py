@@ -16,7 +16,7 @@ a command that does not use ``{xyz}``)::
       promolecule: {spacing: 0.15, margin: 4.0}          # built-in model; bohr
       pyscf: {method: HF, basis: 6-31g, charge: 0, spin: 0, spacing: 0.2, margin: 4.0}
       command: ["my-qc-wrapper", "--at", "{value}", "--geom", "{xyz}", "--out", "{cube}"]
-      timeout: 600                     # seconds, for command only
+      timeout: 600                     # seconds per frame, command only (default 24 h)
 
 Paths resolve relative to the manifest.  Wrong keys and values raise
 :class:`~trackscan.errors.ConfigError` naming the key path, e.g.
@@ -109,12 +109,19 @@ class PySCFConfig:
     cache: Path | None = None
 
 
+#: Seconds an external program may run for one frame unless the manifest's
+#: ``generator.timeout`` says otherwise: long enough for any single-point
+#: density, short enough that a hung program does not hold a cluster slot
+#: (and the scan) for ever.
+DEFAULT_TIMEOUT = 24 * 3600.0
+
+
 @dataclass(frozen=True)
 class CommandConfig:
-    """An external program: argument template and optional timeout (s)."""
+    """An external program: argument template and timeout (s)."""
 
     args: tuple
-    timeout: float | None = None
+    timeout: float = DEFAULT_TIMEOUT
 
     @property
     def uses(self) -> frozenset:
@@ -264,7 +271,7 @@ def parse_generator_config(mapping, *, path=None) -> GeneratorConfig:
                                   "and/or a geometry")
         options = None
     elif source == "command":
-        timeout = None
+        timeout = DEFAULT_TIMEOUT
         if "timeout" in mapping and mapping["timeout"] is not None:
             timeout = chk.number(mapping["timeout"], "generator.timeout", positive=True)
         options = _command(mapping["command"], timeout, chk, geometry is not None)

@@ -52,7 +52,8 @@ from trackscan.settings import AnalysisSettings, TrackingSettings
 from trackscan.units import UNITS_OF_KIND, angle_factor, canonical_unit, length_factor
 
 __all__ = ["ScanManifest", "Coordinate", "FrameEntry", "load_manifest",
-           "read_frame_record", "record_generated_frame", "generated_frame_name", "RECORD_NAME"]
+           "read_frame_record", "record_generated_frame", "update_frame_record",
+           "generated_frame_name", "RECORD_NAME"]
 
 RECORD_NAME = "record.json"
 """File name of the record of generated frames, in the frames directory."""
@@ -284,8 +285,16 @@ def _read_header(file: Path, max_points: int):
     return read_cube_header(file, max_points=max_points)
 
 
-def read_frame_record(directory: Path) -> list:
+def read_frame_record(directory: Path, *, pending: bool = False) -> list:
     """Frames recorded by a generator in ``directory/record.json``.
+
+    Parameters
+    ----------
+    directory : path-like
+    pending : bool
+        Also return entries marked ``"pending": true``: frames a run started
+        and had not finished (see :mod:`trackscan.analysis.generate`).
+        They are not frames of the scan.
 
     Returns
     -------
@@ -305,7 +314,39 @@ def read_frame_record(directory: Path) -> list:
     except (ValueError, KeyError, TypeError, AssertionError):
         raise ParseError("broken record of generated frames (expected {\"frames\": "
                          "[{\"file\", \"value\"}, ...]})", rec) from None
-    return frames
+    return [f for f in frames if pending or not f.get("pending")]
+
+
+def update_frame_record(directory, *, put=(), remove=()) -> Path:
+    """Add or replace entries (by ``file``) of a record of generated frames.
+
+    The caller holds the frames folder's lock (the record is read, changed
+    and rewritten atomically; sorted by value).
+
+    Parameters
+    ----------
+    directory : path-like
+        The frames folder.
+    put : iterable of dict
+        Entries (``file``, ``value``, optional ``energy``, ``refine``,
+        ``pending``); None values are left out.
+    remove : iterable of str
+        File names whose entries are dropped.
+
+    Returns
+    -------
+    Path
+        The record file.
+    """
+    folder = Path(directory)
+    put = [{k: v for k, v in e.items() if v is not None} for e in put]
+    drop = set(remove) | {e["file"] for e in put}
+    frames = [f for f in read_frame_record(folder, pending=True) if f["file"] not in drop]
+    frames.extend(put)
+    frames.sort(key=lambda f: (float(f["value"]), f["file"]))
+    path = folder / RECORD_NAME
+    write_text_atomic(path, json.dumps({"frames": frames}, indent=1, sort_keys=True) + "\n")
+    return path
 
 
 def _frames(data, chk: KeyChecker, base: Path, coord: Coordinate, has_generator: bool,
@@ -416,14 +457,7 @@ def record_generated_frame(manifest, entry: dict) -> Path:
         The record file, ``<frames_directory>/record.json``, rewritten
         atomically (sorted by value; the user's YAML is never touched).
     """
-    folder = Path(manifest.frames_directory)
-    frames = [f for f in read_frame_record(folder) if f["file"] != entry["file"]]
-    clean = {k: v for k, v in entry.items() if v is not None}
-    frames.append(clean)
-    frames.sort(key=lambda f: (float(f["value"]), f["file"]))
-    path = folder / RECORD_NAME
-    write_text_atomic(path, json.dumps({"frames": frames}, indent=1, sort_keys=True) + "\n")
-    return path
+    return update_frame_record(manifest.frames_directory, put=[entry])
 
 
 FRAME_NAME_DECIMALS = VALUE_DECIMALS

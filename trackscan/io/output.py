@@ -3,40 +3,39 @@
 ``analyze``, ``refine``, ``report`` and ``demo`` write scan.json, report
 files and a cache into one folder.  So that a mistyped ``--out`` can never
 overwrite a researcher's files, a folder is used only when it is new, empty,
-or already trackscan's: it holds the marker file :data:`MARKER` (written when
-trackscan first uses it) or a scan.json of trackscan's schema.
+or already trackscan's: its marker file (:data:`MARKER`, see
+:mod:`trackscan.io.ownership`) says it is a trackscan output folder.  A
+copied scan.json does not make a folder trackscan's.  Inside the folder
+trackscan replaces only files it wrote (listed in the marker).
+
+:func:`open_output_dir` also locks the folder for the run: a second run
+into the same folder stops at once with one line (exit code 2).
 """
 
 from __future__ import annotations
 
-import json
+import contextlib
 from pathlib import Path
 
 from trackscan.errors import InputError
-from trackscan.io.atomic import write_text_atomic
+from trackscan.io.ownership import MARKER, guard_folder, read_ownership
 
-__all__ = ["MARKER", "prepare_output_dir", "is_trackscan_folder"]
-
-MARKER = ".trackscan-output"
-"""Marker file in every folder trackscan writes results into."""
-
-_SCHEMA_PREFIX = "trackscan.scan/"
+__all__ = ["MARKER", "prepare_output_dir", "open_output_dir", "is_trackscan_folder"]
 
 
 def is_trackscan_folder(folder) -> bool:
-    """True when `folder` holds trackscan's marker or a trackscan scan.json."""
-    folder = Path(folder)
-    if (folder / MARKER).is_file():
-        return True
-    scan = folder / "scan.json"
-    if scan.is_file():
-        try:
-            with open(scan, encoding="utf-8") as fh:
-                head = json.load(fh)
-            return str(head.get("schema", "")).startswith(_SCHEMA_PREFIX)
-        except (OSError, ValueError, AttributeError):
-            return False
-    return False
+    """True when the marker of `folder` says it is a trackscan output folder."""
+    own = read_ownership(folder)
+    return own is not None and own.output_folder
+
+
+def _check(folder: Path) -> None:
+    if folder.exists() and not folder.is_dir():
+        raise InputError("output path exists and is not a folder", folder)
+    if folder.is_dir() and any(p.name != ".trackscan-lock" for p in folder.iterdir()) \
+            and not is_trackscan_folder(folder):
+        raise InputError("output folder holds files trackscan did not write; choose a new or "
+                         "empty folder with --out (nothing was written)", folder)
 
 
 def prepare_output_dir(folder) -> Path:
@@ -58,15 +57,46 @@ def prepare_output_dir(folder) -> Path:
         write (choose another ``--out``).
     """
     folder = Path(folder)
-    if folder.exists() and not folder.is_dir():
-        raise InputError("output path exists and is not a folder", folder)
-    if folder.is_dir() and any(folder.iterdir()) and not is_trackscan_folder(folder):
-        raise InputError("output folder holds files trackscan did not write; choose a new or "
-                         "empty folder with --out (nothing was written)", folder)
+    _check(folder)
+    with open_output_dir(folder):
+        pass
+    return folder
+
+
+@contextlib.contextmanager
+def open_output_dir(folder):
+    """Check, lock and guard an output folder for the length of the block.
+
+    Yields
+    ------
+    Path
+        The folder (created if needed, marked as trackscan's).  Inside the
+        block every atomic write into it is checked
+        (:func:`trackscan.io.ownership.guard_folder`).
+
+    Raises
+    ------
+    InputError
+        As :func:`prepare_output_dir`; :class:`FolderBusyError` when
+        another trackscan run writes into the folder.
+    """
+    folder = Path(folder)
+    _check(folder)
     try:
         folder.mkdir(parents=True, exist_ok=True)
-        if not (folder / MARKER).is_file():
-            write_text_atomic(folder / MARKER, "This folder holds results written by trackscan.\n")
     except OSError as exc:
         raise InputError(f"cannot create the output folder ({exc.strerror})", folder) from None
-    return folder
+    with guard_folder(folder, output_folder=True, purpose="--out") as own:
+        _check(folder)                      # again, now that the folder is ours alone
+        _remove_stale_temporaries(folder)
+        yield folder
+        del own
+
+
+def _remove_stale_temporaries(folder: Path) -> None:
+    """Delete temporary files an interrupted earlier run left (the folder is locked)."""
+    from trackscan.io.atomic import remove_stale_temporaries
+
+    for sub in (folder, folder / ".cache", folder / "suggested"):
+        if sub.is_dir():
+            remove_stale_temporaries(sub)

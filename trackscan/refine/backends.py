@@ -8,14 +8,16 @@
   workers must see the same file system as this process (the frames folder
   and the cache), as on a cluster with a shared disk.
 
-Both yield generated frames as they finish, so the caller records each one
-at once.
+Both report generated frames as they finish (``generate(generator, calls,
+on_done)``, the runner interface of
+:func:`trackscan.analysis.generate.generate_frames`), so each is recorded at
+once; the local one is :func:`trackscan.analysis.generate.run_local` (fork
+server workers that stop with trackscan).
 """
 
 from __future__ import annotations
 
 import logging
-from concurrent.futures import ProcessPoolExecutor, as_completed
 
 from trackscan.analysis.runner import check_jobs
 from trackscan.errors import InputError
@@ -26,16 +28,8 @@ logger = logging.getLogger(__name__)
 
 
 def generate_one(generator, value: float, path: str, workdir: str):
-    """Run one generator call (picklable; used by workers)."""
+    """Run one generator call (picklable; used by dask workers)."""
     return generator.generate(value, path, workdir=workdir)
-
-
-def _build_and_generate(config, coordinate, value: float, path: str, workdir: str):
-    """Build the generator from its config in a worker, then generate."""
-    from trackscan.generators import make_generator
-
-    gen = make_generator(config, coordinate=coordinate)
-    return gen.generate(value, path, workdir=workdir)
 
 
 class LocalBackend:
@@ -54,35 +48,23 @@ class LocalBackend:
     def describe(self) -> str:
         return f"{self.jobs} local process(es)"
 
-    def generate(self, tasks, *, generator, config=None, coordinate=None):
-        """Yield ``(index, GeneratedFrame or None, exception or None)`` as calls finish.
+    def generate(self, generator, calls, on_done) -> None:
+        """Run generator calls; ``on_done(index, GeneratedFrame or None, exception or None)``.
 
-        A failed call does not stop the others: every call that succeeds is
-        yielded (so the caller can record it) and the failures come with
-        their exception.
+        :func:`trackscan.analysis.generate.run_local` with this backend's jobs:
+        a failed call does not stop the others (with one job, it stops the
+        rest); every call that succeeds is reported, so the caller can
+        record it.
 
         Parameters
         ----------
-        tasks : list of (value, path, workdir)
         generator : Generator
-            Used in this process (jobs 1, or no `config`).
-        config, coordinate : optional
-            Rebuild the generator in worker processes from these.
+        calls : list of (value, path, workdir)
+        on_done : callable
         """
-        if self.jobs == 1 or len(tasks) <= 1 or config is None:
-            for i, (v, p, w) in enumerate(tasks):
-                try:
-                    yield i, generate_one(generator, v, p, w), None
-                except Exception as exc:          # recorded by the caller, then re-raised
-                    yield i, None, exc
-                    return
-            return
-        with ProcessPoolExecutor(max_workers=min(self.jobs, len(tasks))) as pool:
-            futures = {pool.submit(_build_and_generate, config, coordinate, v, p, w): i
-                       for i, (v, p, w) in enumerate(tasks)}
-            for fut in as_completed(futures):
-                exc = fut.exception()
-                yield futures[fut], (None if exc else fut.result()), exc
+        from trackscan.analysis.generate import run_local
+
+        run_local(generator, calls, on_done, jobs=self.jobs)
 
     def analyse(self, files, settings, *, periodic: bool, cache_dir, progress=None) -> list:
         """Frame dicts of cube files (:func:`trackscan.analysis.analyse_frames`)."""
@@ -119,21 +101,21 @@ class DaskBackend:
     def describe(self) -> str:
         return f"dask scheduler {self.client.scheduler.address} ({self.jobs} workers)"
 
-    def generate(self, tasks, *, generator, config=None, coordinate=None):
-        """Yield ``(index, GeneratedFrame or None, exception or None)`` as tasks finish."""
+    def generate(self, generator, calls, on_done) -> None:
+        """Run generator calls as tasks; ``on_done(index, frame or None, exception or None)``."""
         from dask.distributed import as_completed as dask_completed
 
         futures = {}
-        for i, (v, p, w) in enumerate(tasks):
-            if config is not None:
-                fut = self.client.submit(_build_and_generate, config, coordinate, v, p, w,
-                                         pure=False)
-            else:
-                fut = self.client.submit(generate_one, generator, v, p, w, pure=False)
-            futures[fut] = i
-        for fut in dask_completed(list(futures)):
-            exc = fut.exception()
-            yield futures[fut], (None if exc else fut.result()), exc
+        for i, (v, p, w) in enumerate(calls):
+            futures[self.client.submit(generate_one, generator, v, p, w, pure=False)] = i
+        try:
+            for fut in dask_completed(list(futures)):
+                exc = fut.exception()
+                on_done(futures[fut], None if exc else fut.result(), exc)
+        except BaseException:
+            for fut in futures:
+                fut.cancel()
+            raise
 
     def analyse(self, files, settings, *, periodic: bool, cache_dir, progress=None) -> list:
         """Frame dicts of cube files, analysed on the workers, cached here."""

@@ -4,11 +4,13 @@
 runs the refine loop (:func:`trackscan.refine.loop.refine_frames`) with the
 manifest's generator, and returns the :class:`trackscan.model.ScanResult`
 built from the frames the loop holds, with every change's estimate, method,
-evaluations and uncertainty.  Each new cube is written
-to the frames folder and entered in its ``record.json``
-(:func:`trackscan.io.manifest.record_generated_frame`, atomic) before the loop takes its next
-step, so a refine that stops half way (an error, a killed job) resumes where
-it stopped when rerun: :func:`trackscan.io.manifest.load_manifest` merges the
+evaluations and uncertainty.  Each new cube is made by
+:func:`trackscan.analysis.generate.generate_frames` (the path ``analyze``
+uses too): entered in the frames folder's ``record.json`` as pending before
+it starts, recorded as finished the moment it is, and adopted on the next
+start if the run died in between, so a refine that stops half way (an
+error, SIGINT/SIGTERM, a killed job) resumes where it stopped when rerun:
+:func:`trackscan.io.manifest.load_manifest` merges the
 recorded frames, their analyses come from the cache, and the loop makes the
 proposal it would have made next.
 
@@ -54,7 +56,7 @@ def _suggested_meta(folder) -> dict:
 
 
 def load_frames(manifest, *, backend=None, cache_dir=None, suggested_dir=None,
-                progress=None) -> list:
+                progress=None, generator=None) -> list:
     """Placed frames of every frame of the manifest (analysed, cached).
 
     Frames listed by value only are generated first
@@ -68,10 +70,11 @@ def load_frames(manifest, *, backend=None, cache_dir=None, suggested_dir=None,
         The density source, in words.
     frames : list of trackscan.model.Frame
     """
-    from trackscan.analysis.scan import ensure_frames
+    from trackscan.analysis.scan import prepare_frames
 
     backend = backend or LocalBackend()
-    source = ensure_frames(manifest, progress=progress)
+    # (frames an interrupted run finished are adopted first, and listed)
+    manifest, source = prepare_frames(manifest, progress=progress, generator=generator)
     frames = backend.analyse([e.file for e in manifest.frames], manifest.analysis,
                              periodic=manifest.periodic, cache_dir=cache_dir, progress=progress)
     return source, place_frames(manifest, frames, suggested=_suggested_meta(suggested_dir))
@@ -132,34 +135,24 @@ def refine_manifest(manifest, *, tolerance: float, max_evaluations: int | None =
                              "use --suggest to get the values and geometries instead",
                              manifest.path)
         generator = make_generator(manifest.generator, coordinate=manifest.coordinate)
-        config = manifest.generator
-    else:
-        config = None
     backend = backend or LocalBackend(jobs)
     cache_dir = None if out_dir is None else Path(out_dir) / ".cache"
     folder = Path(manifest.frames_directory)
+    check = getattr(generator, "check", None)
+    if check is not None:
+        check()
     source, frames = load_frames(manifest, backend=backend, cache_dir=cache_dir,
-                                 progress=progress)
+                                 progress=progress, generator=generator)
 
     def evaluate(probes):
-        tasks = [(p.value, os.fspath(folder / generated_frame_name(p.value)), os.fspath(folder))
-                 for p in probes]
-        folder.mkdir(parents=True, exist_ok=True)
-        made = [None] * len(probes)
-        errors = []
-        for i, out, exc in backend.generate(tasks, generator=generator, config=config,
-                                            coordinate=manifest.coordinate):
-            if exc is not None:
-                errors.append(exc)
-                continue
-            made[i] = out
-            record_generated_frame(manifest, {"file": Path(tasks[i][1]).name,
-                                              "value": probes[i].value, "energy": out.energy,
-                                              REFINE_KEY: probes[i].meta})
-            logger.info("new frame at %g: %s", probes[i].value, tasks[i][1])
-        if errors:
-            # the frames that did finish are recorded: a rerun will not repeat them
-            raise errors[0]
+        from trackscan.analysis.generate import FrameTask, generate_frames
+
+        tasks = [FrameTask(float(p.value), folder / generated_frame_name(p.value),
+                           {REFINE_KEY: p.meta}) for p in probes]
+        # made and recorded as each finishes; the first failure is raised after
+        made = generate_frames(manifest, tasks, generator=generator, run=backend.generate,
+                               progress=None)
+        tasks = [(t.value, os.fspath(t.path)) for t in tasks]
         new = backend.analyse([t[1] for t in tasks], manifest.analysis,
                               periodic=manifest.periodic, cache_dir=cache_dir)
         return [place_frame(f, value=p.value, file=t[1], base_dir=manifest.base_dir,
