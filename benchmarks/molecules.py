@@ -140,3 +140,101 @@ def scan_folder(folder: Path, frames: int, n: int, *, distinct: int | None = Non
         "coordinate": {"label": "C1-O stretch", "unit": "angstrom"},
         "frames": entries}))
     return manifest
+
+
+C60_SINGLE = 1.45   # Å, C-C bond shared by a pentagon and a hexagon (a common value, from memory)
+C60_DOUBLE = 1.40   # Å, C-C bond shared by two hexagons (a common value, from memory)
+
+
+def c60(single: float = C60_SINGLE, double: float = C60_DOUBLE):
+    """Buckminsterfullerene as a truncated icosahedron with two bond lengths.
+
+    Construction: an icosahedron (vertices the cyclic permutations of
+    (0, +-1, +-phi), edge 2) is truncated at every vertex v by placing an atom
+    at ``v + t (w - v)`` for each of its five neighbours w.  The five atoms
+    around v form a pentagon of side ``t a`` (a = icosahedron edge), and the
+    atoms near the two ends of one icosahedron edge are ``(1 - 2 t) a``
+    apart (the hexagon-hexagon bond).  Choosing ``t a = single`` and
+    ``(1 - 2 t) a = double`` gives ``a = 2 single + double``.  The bond
+    lengths 1.45 and 1.40 Å are common values (from memory), not a fit.
+
+    Returns
+    -------
+    list of (symbol, (x, y, z) in Å), 60 carbon atoms centred on the origin
+    """
+    phi = (1.0 + math.sqrt(5.0)) / 2.0
+    verts = []
+    for s1 in (-1.0, 1.0):
+        for s2 in (-phi, phi):
+            base = (0.0, s1, s2)
+            for k in range(3):
+                verts.append(base[k:] + base[:k])
+    verts = np.array(verts)
+    edge = 2.0
+    a = 2.0 * single + double
+    verts *= a / edge
+    t = single / a
+    d = np.linalg.norm(verts[:, None] - verts[None], axis=-1)
+    atoms = []
+    for i, v in enumerate(verts):
+        for j in np.nonzero(np.abs(d[i] - a) < 1e-6)[0]:
+            atoms.append(("C", tuple(float(c) for c in v + t * (verts[j] - v))))
+    assert len(atoms) == 60
+    return atoms
+
+
+def polyacene_chain(n_rings: int = 10):
+    """A linear acene of `n_rings` fused benzene rings (planar, idealised).
+
+    Regular hexagons of side 1.40 Å with C-H 1.08 Å pointing outwards (both
+    common values, from memory; not optimised).  ``n_rings = 10`` gives
+    C42H24, 66 atoms, 10 rings in a row: a long fused-ring molecule whose
+    pair, triple and quadruple seeds grow with the number of atoms.
+
+    Returns
+    -------
+    list of (symbol, (x, y, z) in Å)
+    """
+    rcc, rch = 1.40, 1.08
+    h = rcc * math.sqrt(3.0) / 2.0      # half the width of a hexagon across its flats
+    carbons = {}
+    for k in range(n_rings):
+        cx = 2.0 * h * k
+        for m in range(6):
+            ang = math.radians(90 + 60 * m)
+            p = (round(cx + rcc * math.cos(ang), 6), round(rcc * math.sin(ang), 6))
+            carbons[p] = (cx, 0.0)
+    pos = sorted(carbons)
+    atoms = [("C", (x, y, 0.0)) for x, y in pos]
+    xy = np.array(pos)
+    d = np.linalg.norm(xy[:, None] - xy[None], axis=-1)
+    for i, (x, y) in enumerate(pos):
+        nb = np.nonzero((d[i] > 0.1) & (d[i] < rcc + 0.05))[0]
+        if len(nb) == 2:       # an outer C-H carbon: H along the outward bisector
+            u = 2 * xy[i] - xy[nb[0]] - xy[nb[1]]
+            u /= np.linalg.norm(u)
+            atoms.append(("H", (x + rch * u[0], y + rch * u[1], 0.0)))
+    return atoms
+
+
+def spaced_cube(path: Path, atoms, spacing: float = 0.15, *, digits: int = 5) -> Path:
+    """Write the promolecular density of `atoms` (Å) on a box of the given spacing (bohr).
+
+    The box is trackscan's own (:func:`trackscan.promolecule.grid_box`, 4 bohr
+    margin), as ``trackscan demo`` and the model generator make it.
+    """
+    from trackscan.elements import atomic_number
+    from trackscan.io.cube import write_cube
+    from trackscan.promolecule import promolecule_grid
+
+    numbers = [atomic_number(s) for s, _ in atoms]
+    pos = np.array([p for _, p in atoms]) * ANGSTROM
+    write_cube(path, promolecule_grid(numbers, pos, spacing=spacing), digits=digits)
+    return Path(path)
+
+
+BIG_MOLECULES = {
+    "c60": (c60, "C60 cage (60 atoms)"),
+    "acene": (polyacene_chain, "decacene C42H24 (66 atoms, 10 fused rings)"),
+}
+"""Large benchmark molecules: name -> (geometry function, description)."""

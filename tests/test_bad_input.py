@@ -45,6 +45,8 @@ MANIFESTS = {
     "atoms_differ.yaml": ("atom 2 is N but it is O", None),
     "frame_with_nan.yaml": ("nan_value.cube:11: non-finite", None),
     "bad_setting.yaml": ("did you mean 'density_floor'", 3),
+    "listed_value_disagrees.yaml": ("frames[0].value: listed value 0.9 angstrom disagrees with "
+                                    "the distance 1-2 measured on good_frame.cube: 0.740848", 4),
     "no_such_manifest.yaml": ("no such manifest file", None),
     "plane_coordinates_one.yaml": ("coordinates: expected a list of two coordinates", 3),
     "plane_value_not_pair.yaml": ("frames[0].value: expected two numbers [value1, value2]", 6),

@@ -62,8 +62,11 @@ class AnalysisSettings:
     Attributes
     ----------
     density_floor : float
-        Critical points with rho below this (e/bohr^3) are dropped: far from
-        the molecule the density is noise.  Default 1e-4.
+        Critical points with rho below this (e/bohr^3) are dropped in the
+        outer vacuum, where the density is noise.  Inside the molecule (a
+        region below the floor enclosed by density above it, e.g. a cage
+        interior) they are kept and marked ``below_density_floor``
+        (:mod:`trackscan.topology.envelope`).  Default 1e-4.
     boundary_margin : float
         Critical points closer than this (bohr) to the edge of a non-periodic
         grid are dropped (the interpolant is unreliable there).  Default 0.3.
@@ -95,8 +98,10 @@ class AnalysisSettings:
         below the distance from an H nucleus to its bond CP (about 0.35
         bohr in O-H).  Default 0.2.
     seed_retries : int
-        How many times to retry with denser seeding when Poincare-Hopf
-        fails (0 to 2).  Default 2.
+        How many denser seeding levels to try when Poincare-Hopf fails (0 to
+        2); any retry starts with seeds where the missing points should be
+        (:mod:`trackscan.topology.retry`), and all retries together run at
+        most twice the first pass's seeds.  Default 2.
     """
 
     density_floor: float = 1e-4

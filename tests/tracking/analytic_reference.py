@@ -75,8 +75,11 @@ def _newton(field, x, *, maxiter=60, cap=0.3, gtol=1e-10):
 
 
 def critical_points(field, positions, *, lattice=0.6, pad=2.0, rho_min=1e-4,
-                    nuclear_radius=0.0):
+                    nuclear_radius=0.0, seed_nuclei=False):
     """Non-nuclear critical points of the analytic density.
+
+    With `seed_nuclei` Newton also starts at every nucleus, which finds the
+    off-nucleus maxima of light atoms in a cusp-free density.
 
     Returns a list of dicts ``{"kind", "position", "rho", "eigenvalues",
     "eigenvectors"}``; nuclear attractors are the nuclei and not listed.
@@ -87,7 +90,7 @@ def critical_points(field, positions, *, lattice=0.6, pad=2.0, rho_min=1e-4,
     lo, hi = pos.min(axis=0) - pad, pos.max(axis=0) + pad
     axes = [np.arange(lo[a], hi[a] + 1e-9, lattice) for a in range(3)]
     grid = np.stack(np.meshgrid(*axes, indexing="ij"), axis=-1).reshape(-1, 3)
-    x0 = np.vstack([np.array(seeds).reshape(-1, 3), grid])
+    x0 = np.vstack([np.array(seeds).reshape(-1, 3), grid] + ([pos] if seed_nuclei else []))
     x0 = x0[field.evaluate(x0)[0] > 10 * rho_min]
     x, rho, g, h = _newton(field, x0)
     ok = (np.linalg.norm(g, axis=1) < 1e-8) & (rho > rho_min)
@@ -133,7 +136,7 @@ def _ascend(field, x, targets, *, h=0.05, capture=0.1, max_steps=1000):
     return out
 
 
-def molecular_graph(field, positions, *, eps=1e-3, attach=0.4):
+def molecular_graph(field, positions, *, eps=1e-3, attach=0.4, seed_nuclei=False):
     """Reference molecular graph of one frame.
 
     A Gaussian-basis density has no nuclear cusp, so its maximum near a
@@ -146,11 +149,12 @@ def molecular_graph(field, positions, *, eps=1e-3, attach=0.4):
         ``bonds`` (sorted list of sorted atom pairs, 1-based; non-nuclear
         attractors as ``"nna<k>"``, open ends None), ``counts`` per kind,
         ``poincare_hopf`` (n - b + r - c) and ``cps`` (the critical points).
+    `seed_nuclei`: see :func:`critical_points`.
     """
     pos = np.asarray(positions, dtype=float)
     cps = []
     maxima_near = {}
-    for cp in critical_points(field, pos):
+    for cp in critical_points(field, pos, seed_nuclei=seed_nuclei):
         if cp["kind"] == "non_nuclear":
             d = np.linalg.norm(pos - cp["position"], axis=1)
             if d.min() < attach:

@@ -29,6 +29,7 @@ __all__ = ["main", "COMMANDS"]
 
 #: (name, module, one-line summary).  Add a line when a subcommand does real work.
 COMMANDS = [
+    ("init", "trackscan.cli.init", "write a commented scan manifest for your cube files (coordinate measured, frames sorted)"),
     ("inspect", "trackscan.cli.inspect", "read a cube file and print its grid, atoms and electron count"),
     ("frame", "trackscan.cli.frame", "find the critical points, bond paths and molecular graph of one cube file"),
     ("check", "trackscan.cli.check", "validate a scan manifest and the consistency of its frames"),

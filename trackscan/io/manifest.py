@@ -9,6 +9,8 @@ Shape (every key but ``name``, ``coordinate`` and ``frames`` is optional)::
       unit: angstrom                   # angstrom | bohr | degree | any text
       distance: [1, 2]                 # or angle: [i, j, k] / dihedral: [i, j, k, l]
                                        # (1-based atoms; measured on each frame)
+      tolerance: 0.001                 # listed values must match the measured ones
+                                       # (default 1e-3 angstrom, 0.1 degree)
     frames:                            # a list ...
       - {file: frames/f00.cube, value: 1.50, energy: -154.2}
       - {file: frames/f01.cube.gz}     # value measured from the definition
@@ -37,7 +39,7 @@ from pathlib import Path
 
 import yaml
 
-from trackscan.coordinates import COORDINATE_KINDS, measure
+from trackscan.coordinates import COORDINATE_KINDS, default_tolerance, difference, measure
 from trackscan.errors import ConfigError, InputError, ParseError
 from trackscan.io.atomic import write_text_atomic
 from trackscan.io.cube import DEFAULT_MAX_POINTS, read_cube_header
@@ -58,7 +60,7 @@ RECORD_NAME = "record.json"
 
 _TOP_KEYS = ("name", "description", "coordinate", "frames", "periodic", "analysis", "tracking",
              "generator", "coordinates")
-_COORD_KEYS = ("label", "unit") + tuple(COORDINATE_KINDS)
+_COORD_KEYS = ("label", "unit", "tolerance") + tuple(COORDINATE_KINDS)
 _FRAME_KEYS = ("file", "value", "energy")
 _FRAMES_MAP_KEYS = ("glob", "values", "directory")
 
@@ -81,12 +83,17 @@ class Coordinate:
         Measured definition, when given.
     atoms : tuple of int
         1-based atoms of the definition.
+    tolerance : float or None
+        Largest allowed difference (in `unit`) between a listed frame value
+        and the value measured on its geometry; None: the unit's default
+        (:data:`trackscan.coordinates.DEFAULT_TOLERANCES`).
     """
 
     label: str
     unit: str
     kind: str | None = None
     atoms: tuple = ()
+    tolerance: float | None = None
 
     def measure(self, positions) -> float:
         """Value of the coordinate on a geometry (positions in bohr), in `unit`."""
@@ -96,6 +103,15 @@ class Coordinate:
         if self.kind == "distance":
             return v / length_factor(self.unit)
         return v / angle_factor(self.unit)
+
+    @property
+    def check_tolerance(self):
+        """Tolerance of listed values (in `unit`), or None when they cannot be checked."""
+        if self.kind is None:
+            return None
+        if self.tolerance is not None:
+            return self.tolerance
+        return default_tolerance(self.kind, self.unit)
 
     def to_dict(self) -> dict:
         d = {"label": self.label, "unit": self.unit}
@@ -226,7 +242,31 @@ def _coordinate(data, chk: KeyChecker, key: str = "coordinate") -> Coordinate:
         label = f"{kind} " + "-".join(str(a) for a in atoms)
     else:
         chk.fail(f"{key}.label", "required when the coordinate has no measured definition")
-    return Coordinate(label=label, unit=unit, kind=kind, atoms=atoms)
+    tolerance = None
+    if "tolerance" in data:
+        tolerance = chk.number(data["tolerance"], f"{key}.tolerance")
+        if not tolerance >= 0:
+            chk.fail(f"{key}.tolerance", f"must be >= 0 (in {unit}), got {tolerance!r}")
+        if kind is None:
+            chk.fail(f"{key}.tolerance", "needs a measured definition "
+                                             "(distance, angle or dihedral) to check against")
+    return Coordinate(label=label, unit=unit, kind=kind, atoms=atoms, tolerance=tolerance)
+
+
+def _check_listed_value(file: Path, value: float, coord: Coordinate, chk: KeyChecker, key: str,
+                        max_points: int) -> None:
+    """A listed frame value must match the coordinate measured on the frame's geometry."""
+    tol = coord.check_tolerance
+    if tol is None:
+        return     # no definition, or a unit the measurement cannot be converted to
+    measured = _measured_value(file, coord, chk, key, max_points)
+    if difference(coord.kind, value, measured, coord.unit) > tol:
+        atoms = "-".join(str(a) for a in coord.atoms)
+        chk.fail(f"{key}.value",
+                 f"listed value {value:g} {coord.unit} disagrees with the {coord.kind} "
+                 f"{atoms} measured on {file.name}: {measured:.6g} {coord.unit} (tolerance "
+                 f"{tol:g}; set coordinate.tolerance to change it, or leave the value out "
+                 f"to use the measured one)")
 
 
 def _measured_value(file: Path, coord: Coordinate, chk: KeyChecker, key: str, max_points: int):
@@ -371,6 +411,7 @@ def _frames(data, chk: KeyChecker, base: Path, coord: Coordinate, has_generator:
                 chk.fail(f"{key}.file", f"{problem}: {_shorten(file)}")
             if "value" in item:
                 value = chk.number(item["value"], f"{key}.value")
+                _check_listed_value(file, value, coord, chk, key, max_points)
             else:
                 value = _measured_value(file, coord, chk, key, max_points)
             energy = chk.number(item["energy"], f"{key}.energy") if "energy" in item else None

@@ -317,7 +317,7 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
         ctargets = np.array([cp.position for cp in cages])
         bundle = trace_paths(field, np.array(starts), uphill=False, targets=ctargets,
                              radii=np.full(len(cages), 2 * settings.capture_radius),
-                             inside=region.in_grid, floor=settings.density_floor)
+                             inside=region.in_grid, floor=_cage_path_floor(cages, settings))
         for k, i in enumerate(owners):
             t = int(bundle.target[k])
             if t < 0 and bundle.reason[k] == "stalled":
@@ -328,3 +328,14 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
             if t >= 0 and i not in cages[t].rings:
                 cages[t].rings.append(i)
     return paths
+
+
+def _cage_path_floor(cages, settings) -> float:
+    """Density floor for paths descending from rings into cages.
+
+    A cage inside the molecule may lie below the density floor (the floor
+    does not apply there: :mod:`trackscan.topology.envelope`); the paths
+    must be allowed to reach it.
+    """
+    lowest = min((cp.rho for cp in cages), default=np.inf)
+    return float(min(settings.density_floor, 0.5 * lowest))

@@ -23,12 +23,16 @@ from trackscan.grid import DensityGrid
 from trackscan.progress import report as progress_report
 from trackscan.settings import AnalysisSettings
 from trackscan.topology.connect import connect_points, end_key
+from trackscan.topology.envelope import DensityEnvelope
 from trackscan.topology.graph import molecular_graph
 from trackscan.topology.limits import check_analysable, density_warnings
 from trackscan.topology.newton import merge_points
 from trackscan.topology.results import COUNT_KEYS, ID_PREFIX, KINDS, CriticalPoint, fix, sig
-from trackscan.topology.search import (Region, describe_points, exclusion_radii,
-                                       find_critical_points, nuclear_maxima, nuclear_points)
+from trackscan.topology.retry import RETRY_SEED_FACTOR, targeted_seeds
+from trackscan.topology.search import (Region, converge_seeds, describe_points,
+                                       exclusion_radii, find_critical_points, nuclear_maxima,
+                                       nuclear_points)
+from trackscan.topology.seeds import atom_seeds, grid_seeds
 
 __all__ = ["analyze_frame", "FrameTopology", "poincare_hopf"]
 
@@ -73,6 +77,10 @@ class FrameTopology:
         potential): ``{"atom", "missing_electrons", "treatment", "evidence",
         "core_radius_bohr"}``; written into that atom's entry of ``atoms``
         as ``"core_model"``.
+    seed_counts : dict
+        Newton seeds run per attempt: ``first``, then ``targeted``, ``1``,
+        ``2`` for the retries that ran (their sum is at most
+        ``1 + RETRY_SEED_FACTOR`` times ``first``).
     """
 
     critical_points: list
@@ -88,6 +96,7 @@ class FrameTopology:
     seeding_level: int = 0
     timings: dict = dc_field(default_factory=dict)
     core_models: list = dc_field(default_factory=list)
+    seed_counts: dict = dc_field(default_factory=dict)
 
     def to_frame(self):
         """The frame as a :class:`trackscan.model.Frame` (not yet placed in a scan)."""
@@ -107,6 +116,18 @@ class FrameTopology:
         for cp in self.critical_points:
             out[cp.kind] += 1
         return out
+
+    def __repr__(self) -> str:
+        import os
+
+        c = self.counts
+        parts = ", ".join(f"{n} {k.replace('_', '-')}" for k, n in c.items() if n)
+        where = os.path.basename(self.source) if self.source else "grid"
+        ph = "holds" if self.poincare_hopf.get("holds") else (
+            f"fails ({self.poincare_hopf.get('value')}, expected "
+            f"{self.poincare_hopf.get('expected')})")
+        warn = f", {len(self.warnings)} warning(s)" if self.warnings else ""
+        return f"<FrameTopology {where}: {parts}; Poincaré–Hopf {ph}{warn}>"
 
     def by_kind(self, kind: str) -> list:
         """The critical points of one kind."""
@@ -221,6 +242,71 @@ def _grid_info(grid):
     return info
 
 
+def _search_with_retries(field, grid, settings, region, envelope, nuclear, maxima) -> dict:
+    """All non-nuclear CPs: a first pass, then bounded retries while Poincare-Hopf fails.
+
+    The retries (:mod:`trackscan.topology.retry`): seeds where the missing
+    points should be, then the seeds grid levels 1 and 2 add, together at
+    most ``RETRY_SEED_FACTOR`` times the first pass's seeds.  Degenerate CPs
+    stop the retries (their index is undefined; seeds cannot mend that).
+
+    Returns
+    -------
+    dict
+        ``cps`` (classified, nuclear maxima removed), ``poincare_hopf``,
+        ``level`` (highest grid seeding level run), ``seeds`` per attempt.
+    """
+    tol = max(10.0 * settings.xtol, 0.02)
+    found = np.zeros((0, 3))
+    kept = envelope.kept()
+    out = {"seeds": {}}
+
+    def add(pts):
+        nonlocal found
+        allp = np.concatenate([found, pts])
+        g = np.linalg.norm(field.evaluate(allp, 1)[1], axis=1) if len(allp) else np.zeros(0)
+        found = allp[merge_points(allp, g, settings.xtol, cell=region.cell)]
+        cps = _without_nuclear_maxima(describe_points(field, found, settings, envelope=envelope),
+                                      maxima, tol)
+        counts = {k: 0 for k in KINDS}
+        for cp in nuclear + cps:
+            counts[cp.kind] += 1
+        return cps, counts, poincare_hopf(counts, grid.periodic)
+
+    pts, n_first = find_critical_points(field, grid, settings, region, level=0,
+                                        envelope=envelope)
+    cps, counts, ph = add(pts)
+    out["seeds"]["first"] = n_first
+    logger.debug("first pass: %d seeds, counts %s, PH %s", n_first, counts, ph)
+    budget = int(RETRY_SEED_FACTOR * max(n_first, 1))
+    retries = max(0, min(settings.seed_retries, 2))
+    attempts = (["targeted"] if retries else []) + list(range(1, retries + 1))
+    level = 0
+    for attempt in attempts:
+        if ph["holds"] or counts["degenerate"] or budget <= 0:
+            break
+        logger.info("%s: Poincare-Hopf gives %d (expected %d); retrying (%s seeds)",
+                    grid.source or "grid", ph["value"], ph["expected"],
+                    attempt if attempt == "targeted" else f"level {attempt}")
+        if attempt == "targeted":
+            x = targeted_seeds(cps, grid, kept)
+        else:
+            level = attempt
+            u = grid_seeds(grid.values, floor=settings.density_floor, lo=region.lo,
+                           hi=region.hi, periodic=region.periodic, level=attempt, kept=kept,
+                           only_new=True)
+            x = np.concatenate([grid.position(u),
+                                atom_seeds(grid.positions[grid.numbers > 0], level=attempt)])
+        pts, n = converge_seeds(field, grid, settings, region, x, envelope=envelope,
+                                max_seeds=budget)
+        budget -= n
+        out["seeds"][str(attempt)] = n
+        cps, counts, ph = add(pts)
+        logger.debug("retry %s: %d seeds, counts %s, PH %s", attempt, n, counts, ph)
+    out.update(cps=cps, poincare_hopf=ph, level=level)
+    return out
+
+
 def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *, field=None,
                   progress=None) -> FrameTopology:
     """Critical points, bond paths and molecular graph of one density grid.
@@ -306,27 +392,10 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
 
     report("critical points")
     t1 = time.perf_counter()
-    found = np.zeros((0, 3))
-    level = 0
-    cps = []
-    ph = None
-    for level in range(0, max(0, min(settings.seed_retries, 2)) + 1):
-        pts, n_seeds = find_critical_points(field, grid, settings, region, level=level)
-        allp = np.concatenate([found, pts])
-        g = np.linalg.norm(field.evaluate(allp, 1)[1], axis=1) if len(allp) else np.zeros(0)
-        found = allp[merge_points(allp, g, settings.xtol, cell=region.cell)]
-        cps = _without_nuclear_maxima(describe_points(field, found, settings),
-                                      region.wrap(maxima), max(10.0 * settings.xtol, 0.02))
-        counts = {k: 0 for k in KINDS}
-        for cp in nuclear + cps:
-            counts[cp.kind] += 1
-        ph = poincare_hopf(counts, grid.periodic)
-        logger.debug("seeding level %d: %d seeds, counts %s, PH %s", level, n_seeds, counts, ph)
-        if ph["holds"] or counts["degenerate"]:
-            break      # holds, or degenerate CPs (undefined index) that seeds cannot mend
-        if level < settings.seed_retries:
-            logger.info("%s: Poincare-Hopf gives %d (expected %d); retrying with denser seeds",
-                        grid.source or "grid", ph["value"], ph["expected"])
+    envelope = DensityEnvelope(grid, settings.density_floor)
+    search = _search_with_retries(field, grid, settings, region, envelope, nuclear,
+                                  region.wrap(maxima))
+    cps, ph, level = search["cps"], search["poincare_hopf"], search["level"]
     timings["critical_points"] = time.perf_counter() - t1
     for msg in doubts:
         warn(msg)
@@ -339,8 +408,14 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
         warn(msg)
     elif not complete:
         msg = (f"Poincare-Hopf fails: n - b + r - c = {ph['value']}, expected {ph['expected']} "
-               f"(after {level} retries); critical points may be missing")
+               f"(after {len(search['seeds']) - 1} retries); critical points may be missing")
         warn(msg)
+    low = [cp for cp in cps if cp.below_floor]
+    if low:
+        kinds = sorted({cp.kind for cp in low}, key=KINDS.index)
+        warn(f"{len(low)} {'/'.join(kinds)} critical point(s) inside the molecule have rho "
+             f"below the density floor {settings.density_floor:g} (lowest "
+             f"{min(cp.rho for cp in low):.3g}); kept, marked below_density_floor")
 
     report("paths")
     t2 = time.perf_counter()
@@ -402,4 +477,5 @@ def analyze_frame(grid: DensityGrid, settings: AnalysisSettings | None = None, *
                          numbers=np.array(grid.numbers), positions=np.array(grid.positions),
                          grid_info=_grid_info(grid), poincare_hopf=ph, complete=complete,
                          warnings=warnings, source=grid.source, field=label,
-                         seeding_level=level, timings=timings, core_models=cores)
+                         seeding_level=level, timings=timings, core_models=cores,
+                         seed_counts=dict(search["seeds"]))

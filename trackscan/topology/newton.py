@@ -19,7 +19,7 @@ from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
-__all__ = ["newton_search", "merge_points"]
+__all__ = ["newton_search", "merge_points", "outside_nuclear_spheres"]
 
 _EIG_FLOOR = 1e-12
 
@@ -44,8 +44,9 @@ def newton_search(field, x0, *, gtol: float, maxiter: int, max_step: float, insi
         Seeds entering a sphere of `nuclear_radius` around a nucleus are
         abandoned (the cusp; the nuclear attractor is placed separately).
     nuclear_radius : float or (n,) float array, bohr
-    floor : float
-        Seeds wandering below a tenth of this density are abandoned.
+    floor : float or (N,) float array
+        Seeds wandering below a tenth of this density are abandoned (per
+        seed: 0 for seeds inside a cage, where the floor does not apply).
 
     Returns
     -------
@@ -61,7 +62,9 @@ def newton_search(field, x0, *, gtol: float, maxiter: int, max_step: float, insi
     alive = np.ones(n, dtype=bool)
     nuc = None if nuclei is None or len(nuclei) == 0 else np.asarray(nuclei, dtype=float)
     if nuc is not None:
-        rad2 = np.broadcast_to(np.asarray(nuclear_radius, dtype=float), (len(nuc),)) ** 2
+        rad = np.broadcast_to(np.asarray(nuclear_radius, dtype=float), (len(nuc),))
+        tree = cKDTree(nuc)
+    floor = np.broadcast_to(np.asarray(floor, dtype=np.float64), (n,))
     it = 0
     for it in range(1, maxiter + 1):
         idx = np.nonzero(alive & ~converged)[0]
@@ -72,7 +75,7 @@ def newton_search(field, x0, *, gtol: float, maxiter: int, max_step: float, insi
         gn = np.linalg.norm(g, axis=1)
         done = gn < gtol
         converged[idx[done]] = True
-        lost = v < 0.1 * floor
+        lost = v < 0.1 * floor[idx]
         alive[idx[lost & ~done]] = False
         go = ~done & ~lost
         if not np.any(go):
@@ -88,10 +91,35 @@ def newton_search(field, x0, *, gtol: float, maxiter: int, max_step: float, insi
         x[idx] = xn
         ok = inside(xn)
         if nuc is not None:
-            d2 = ((xn[:, None, :] - nuc[None]) ** 2).sum(-1)
-            ok &= np.all(d2 > rad2[None, :], axis=1)
+            ok &= outside_nuclear_spheres(xn, nuc, rad, tree=tree)
         alive[idx[~ok]] = False
     return x, converged & alive, it
+
+
+def outside_nuclear_spheres(x, nuclei, radii, *, tree=None) -> np.ndarray:
+    """True for points outside every sphere ``radii[i]`` around ``nuclei[i]``.
+
+    A neighbour list (k-d tree of the nuclei, built once by the caller and
+    passed as `tree` when called repeatedly) keeps the cost linear in the
+    number of points whatever the number of atoms.  A point counts as inside
+    when it is at most ``radii[i]`` from nucleus i (the 4 nearest nuclei
+    within the largest radius are checked; exclusion spheres are far smaller
+    than interatomic distances).
+    """
+    x = np.asarray(x, dtype=float).reshape(-1, 3)
+    nuclei = np.asarray(nuclei, dtype=float).reshape(-1, 3)
+    ok = np.ones(len(x), dtype=bool)
+    if len(nuclei) == 0 or len(x) == 0:
+        return ok
+    radii = np.broadcast_to(np.asarray(radii, dtype=float), (len(nuclei),))
+    rmax = float(radii.max())
+    k = min(4, len(nuclei))
+    d, j = (tree if tree is not None else cKDTree(nuclei)).query(x, k=k, distance_upper_bound=rmax)
+    d = d.reshape(len(x), k)
+    j = j.reshape(len(x), k)
+    hit = np.isfinite(d)
+    r = np.where(hit, radii[np.minimum(j, len(nuclei) - 1)], -1.0)
+    return ~np.any(hit & (d <= r), axis=1)
 
 
 def merge_points(x, score, tol: float, *, cell=None):

@@ -69,6 +69,11 @@ class CriticalPoint:
         Cage CPs: ids of the ring CPs whose paths descend into the cage.
     energy_densities : dict or None
         Bond CPs: ``{"G", "V", "H", "approximate"}``.
+    below_floor : bool
+        rho is below the density floor, and the point was kept because it
+        lies inside the molecule (a cage interior: see
+        :mod:`trackscan.topology.envelope`).  In JSON as
+        ``"below_density_floor": true``, only when set.
     id : str
         ``n1``, ``a1``, ``b1``, ``r1``, ``c1``, ``d1``... assigned per frame.
     """
@@ -87,6 +92,7 @@ class CriticalPoint:
     rings: list = field(default_factory=list)
     energy_densities: dict | None = None
     id: str = ""
+    below_floor: bool = False
 
     def to_dict(self) -> dict:
         """The contract's critical-point object."""
@@ -105,6 +111,8 @@ class CriticalPoint:
         }
         if self.kind == "cage":
             d["rings"] = list(self.rings)
+        if self.below_floor:
+            d["below_density_floor"] = True
         if self.energy_densities is not None:
             e = self.energy_densities
             d["energy_densities"] = {"G": sig(e["G"]), "V": sig(e["V"]), "H": sig(e["H"]),

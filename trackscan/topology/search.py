@@ -22,13 +22,14 @@ import logging
 import numpy as np
 
 from trackscan.topology.limits import SEEDS_PER_CP, check_count, critical_point_cap
-from trackscan.topology.newton import merge_points, newton_search
+from trackscan.topology.newton import merge_points, newton_search, outside_nuclear_spheres
 from trackscan.topology.properties import (abramov_energy_densities, canonical_eigenvectors,
                                            classify, ellipticity)
 from trackscan.topology.results import CriticalPoint
 from trackscan.topology.seeds import atom_seeds, grid_seeds
 
-__all__ = ["Region", "find_critical_points", "nuclear_points", "describe_points",
+__all__ = ["Region", "find_critical_points", "converge_seeds", "outside_nuclear_spheres",
+           "nuclear_points", "describe_points",
            "exclusion_radii", "nuclear_maxima", "ATTACH_RADIUS"]
 
 logger = logging.getLogger(__name__)
@@ -258,7 +259,7 @@ def exclusion_radii(field, grid, settings) -> np.ndarray:
 
 
 def find_critical_points(field, grid, settings, region, *, level: int = 0,
-                         extra_seeds=None) -> tuple:
+                         extra_seeds=None, envelope=None) -> tuple:
     """Non-nuclear critical points of `field` inside `region`.
 
     Parameters
@@ -272,6 +273,9 @@ def find_critical_points(field, grid, settings, region, *, level: int = 0,
         Seeding level (see :func:`trackscan.topology.seeds.grid_seeds`).
     extra_seeds : (M, 3) float array, optional
         More seeds (bohr).
+    envelope : DensityEnvelope, optional
+        Where the density floor does not apply (inside cages); default:
+        everywhere below the floor is vacuum.
 
     Returns
     -------
@@ -279,8 +283,9 @@ def find_critical_points(field, grid, settings, region, *, level: int = 0,
         Converged, merged points (bohr), not yet classified.
     n_seeds : int
     """
+    kept = None if envelope is None else envelope.kept()
     u = grid_seeds(grid.values, floor=settings.density_floor, lo=region.lo, hi=region.hi,
-                   periodic=region.periodic, level=level)
+                   periodic=region.periodic, level=level, kept=kept)
     cap = critical_point_cap(grid.n_atoms)
     if level == 0:   # bounded work: noise has seeds in most cells (limits.py)
         check_count(len(u), SEEDS_PER_CP * cap, "first-pass seeds", grid)
@@ -289,13 +294,32 @@ def find_critical_points(field, grid, settings, region, *, level: int = 0,
     seeds.append(atom_seeds(grid.positions[real], level=level))
     if extra_seeds is not None and len(extra_seeds):
         seeds.append(np.asarray(extra_seeds, dtype=float).reshape(-1, 3))
-    x0 = np.concatenate(seeds)
+    return converge_seeds(field, grid, settings, region, np.concatenate(seeds),
+                          envelope=envelope)
+
+
+def converge_seeds(field, grid, settings, region, x0, *, envelope=None,
+                   max_seeds=None) -> tuple:
+    """Newton from seeds (bohr): the distinct critical points they converge to.
+
+    Seeds outside `region` or inside a nuclear exclusion sphere are dropped,
+    seeds closer than a tenth of a grid step are run once.  With `max_seeds`
+    at most that many are run, evenly spread over their order.
+
+    Returns
+    -------
+    points : (K, 3) float array
+        Converged, merged points (bohr), not yet classified.
+    n_seeds : int
+        Seeds kept after the region and sphere filters.
+    """
+    x0 = np.asarray(x0, dtype=float).reshape(-1, 3)
     x0 = x0[region.inside(x0)]
+    real = grid.numbers > 0
     nuclei = grid.positions[real]
     radii = exclusion_radii(field, grid, settings)[real]
     if len(nuclei) and len(x0):
-        d2 = ((x0[:, None, :] - nuclei[None]) ** 2).sum(-1)
-        x0 = x0[np.all(d2 > radii[None, :] ** 2, axis=1)]
+        x0 = x0[outside_nuclear_spheres(x0, nuclei, radii)]
     n_seeds = len(x0)
     if n_seeds == 0:
         return np.zeros((0, 3)), 0
@@ -304,24 +328,32 @@ def find_critical_points(field, grid, settings, region, *, level: int = 0,
     keep = merge_points(x0, np.arange(n_seeds), 0.1 * float(np.min(grid.spacing)),
                         cell=region.cell)
     x0 = x0[keep]
+    if max_seeds is not None and len(x0) > max_seeds:
+        from trackscan.topology.retry import thin_seeds
+
+        x0 = thin_seeds(x0, max_seeds)
+        n_seeds = len(x0)
+    floor = settings.density_floor if envelope is None else envelope.floors(x0)
     x, conv, n_iter = newton_search(field, x0, gtol=settings.gtol, maxiter=settings.maxiter,
                                     max_step=settings.max_step, inside=region.inside,
                                     nuclei=nuclei, nuclear_radius=radii,
-                                    floor=settings.density_floor)
+                                    floor=floor)
     logger.debug("Newton: %d seeds, %d converged, %d iterations", len(x0), int(conv.sum()), n_iter)
     x = region.wrap(x[conv])
     if len(x) == 0:
         return x, n_seeds
     g = np.linalg.norm(field.evaluate(x, 1)[1], axis=1)
     keep = merge_points(x, g, settings.xtol, cell=region.cell)
-    check_count(len(keep), cap, "critical points", grid)
+    check_count(len(keep), critical_point_cap(grid.n_atoms), "critical points", grid)
     return x[keep], n_seeds
 
 
-def describe_points(field, x, settings) -> list:
+def describe_points(field, x, settings, *, envelope=None) -> list:
     """Classify converged points and compute their properties.
 
-    Points below the density floor are dropped.
+    Points below the density floor are dropped, except inside the molecule
+    (`envelope`, a :class:`~trackscan.topology.envelope.DensityEnvelope`):
+    those are kept with ``below_floor = True``.
 
     Returns
     -------
@@ -336,15 +368,19 @@ def describe_points(field, x, settings) -> list:
     vec = canonical_eigenvectors(vec)
     rank, signature, kinds = classify(lam, settings.degenerate_tol)
     gn = np.linalg.norm(g, axis=1)
+    low = v < settings.density_floor
+    enclosed = np.zeros(len(x), dtype=bool)
+    if envelope is not None and np.any(low):
+        enclosed = envelope.inside(x)
     out = []
     for i in range(len(x)):
-        if v[i] < settings.density_floor:
+        if low[i] and not enclosed[i]:
             continue
         lap = float(lam[i].sum())
         cp = CriticalPoint(kind=kinds[i], position=x[i].copy(), rho=float(v[i]),
                            rank=int(rank[i]), signature=int(signature[i]), laplacian=lap,
                            eigenvalues=lam[i].copy(), eigenvectors=vec[i].T.copy(),
-                           gradient_norm=float(gn[i]))
+                           gradient_norm=float(gn[i]), below_floor=bool(low[i]))
         if cp.kind == "bond":
             cp.ellipticity = ellipticity(lam[i])
             cp.energy_densities = abramov_energy_densities(float(v[i]), lap, float(gn[i]))

@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import numpy as np
 from scipy import ndimage
+from scipy.spatial import cKDTree
 
 __all__ = ["grid_seeds", "atom_seeds", "MAX_LEVEL"]
 
@@ -75,7 +76,8 @@ def _corner_any_all(b, periodic):
     return anyv, allv
 
 
-def grid_seeds(values, *, floor: float, lo, hi, periodic: bool, level: int = 0) -> np.ndarray:
+def grid_seeds(values, *, floor: float, lo, hi, periodic: bool, level: int = 0,
+               kept=None, only_new: bool = False) -> np.ndarray:
     """Seeds from the grid samples, as fractional indices.
 
     Parameters
@@ -87,35 +89,46 @@ def grid_seeds(values, *, floor: float, lo, hi, periodic: bool, level: int = 0) 
     lo, hi : (3,) float arrays
         Allowed range of fractional indices (ignored when periodic).
     periodic : bool
+    kept : (nx, ny, nz) bool array, optional
+        Nodes that count as part of the molecule (default ``values >
+        floor``); :class:`trackscan.topology.envelope.DensityEnvelope` adds
+        the enclosed low-density nodes inside cages.
     level : {0, 1, 2}
         0: cells with all three sign changes (cell centres).
         1: adds cells with at least two sign changes and the nodes that are
         26-neighbour minima of the squared finite-difference gradient.
         2: adds every third node above the floor.
+    only_new : bool
+        Only the seeds this level adds to the level below it (for retries
+        that have already run the lower levels).
 
     Returns
     -------
     (M, 3) float array
     """
     values = np.asarray(values, dtype=np.float64)
-    changes = []
-    for axis in range(3):
-        anyv, allv = _corner_any_all(_central_sign(values, axis, periodic), periodic)
-        changes.append(anyv & ~allv)
-    dense, _ = _corner_any_all(values > floor, periodic)
-    count = changes[0].astype(np.int8) + changes[1] + changes[2]
+    if kept is None:
+        kept = values > floor
     need = 3 if level == 0 else 2
-    cells = np.argwhere((count >= need) & dense).astype(np.float64) + 0.5
-    seeds = [cells]
-    if level >= 1:
+    seeds = []
+    if not only_new or level <= 1:
+        changes = []
+        for axis in range(3):
+            anyv, allv = _corner_any_all(_central_sign(values, axis, periodic), periodic)
+            changes.append(anyv & ~allv)
+        dense, _ = _corner_any_all(kept, periodic)
+        count = changes[0].astype(np.int8) + changes[1] + changes[2]
+        pick = (count == 2) if (only_new and level == 1) else (count >= need)
+        seeds.append(np.argwhere(pick & dense).astype(np.float64) + 0.5)
+    if level >= 1 and not (only_new and level >= 2):
         g2 = np.zeros_like(values)
         mode = "wrap" if periodic else "nearest"
         for axis in range(3):
             g2 += ndimage.correlate1d(values, [-0.5, 0.0, 0.5], axis=axis, mode=mode) ** 2
-        minima = (g2 == ndimage.minimum_filter(g2, size=3, mode=mode)) & (values > floor)
+        minima = (g2 == ndimage.minimum_filter(g2, size=3, mode=mode)) & kept
         seeds.append(np.argwhere(minima).astype(np.float64))
     if level >= 2:
-        sub = values[::3, ::3, ::3] > floor
+        sub = kept[::3, ::3, ::3]
         seeds.append(np.argwhere(sub).astype(np.float64) * 3.0)
     out = np.concatenate(seeds)
     if not periodic:
@@ -136,27 +149,34 @@ def atom_seeds(positions, *, level: int = 0) -> np.ndarray:
     Returns
     -------
     (M, 3) float array, bohr
+
+    Notes
+    -----
+    Pairs and groups come from neighbour lists (:class:`scipy.spatial.cKDTree`),
+    so the cost grows with the number of near neighbours, not with atoms^2
+    or atoms^3.  At most about ``_MAX_QUADS`` quadruples are made.
     """
     pos = np.asarray(positions, dtype=np.float64).reshape(-1, 3)
     n = len(pos)
     if n < 2:
         return np.zeros((0, 3))
     scale = 1.5 if level >= 1 else 1.0
-    d = np.linalg.norm(pos[:, None] - pos[None], axis=-1)
-    i, j = np.triu_indices(n, 1)
-    keep = d[i, j] < _PAIR_CUTOFF * scale
-    out = [0.5 * (pos[i[keep]] + pos[j[keep]])]
-    near = d < _GROUP_CUTOFF * scale
-    triples = [(a, b, c) for a, b in zip(*np.nonzero(np.triu(near, 1)))
-               for c in range(b + 1, n) if near[a, c] and near[b, c]]
+    tree = cKDTree(pos)
+    pairs = _sorted_pairs(tree, _PAIR_CUTOFF * scale)
+    out = [0.5 * (pos[pairs[:, 0]] + pos[pairs[:, 1]])]
+    # neighbour lists (later atoms only): triples and quadruples with all pairs near
+    near = _sorted_pairs(tree, _GROUP_CUTOFF * scale)
+    later = [set() for _ in range(n)]
+    for a, b in near.tolist():
+        later[a].add(b)
+    triples = [(a, b, c) for a, b in near.tolist()
+               for c in sorted(later[a] & later[b])]
     if triples:
         t = np.asarray(triples)
         out.append(pos[t].mean(axis=1))
         quads = []
         for a, b, c in triples:
-            for e in range(c + 1, n):
-                if near[a, e] and near[b, e] and near[c, e]:
-                    quads.append((a, b, c, e))
+            quads.extend((a, b, c, e) for e in sorted(later[a] & later[b] & later[c]))
             if len(quads) > _MAX_QUADS:
                 break
         if quads:
@@ -164,3 +184,7 @@ def atom_seeds(positions, *, level: int = 0) -> np.ndarray:
     return np.concatenate(out)
 
 
+def _sorted_pairs(tree, radius) -> np.ndarray:
+    """Index pairs (i < j) closer than `radius`, in lexicographic order."""
+    pairs = tree.query_pairs(radius, output_type="ndarray").reshape(-1, 2)
+    return pairs[np.lexsort((pairs[:, 1], pairs[:, 0]))]
