@@ -31,7 +31,7 @@ from pathlib import Path
 
 import numpy as np
 
-from trackscan.report.style import OKABE_ITO, new_figure, to_png
+from trackscan.report.style import OKABE_ITO, new_figure, render
 
 __all__ = ["plane_scan", "structure_map_figure", "save_figure", "structure_words",
            "plane_document", "write_plane_report", "MECHANISM_LINES", "RASTER"]
@@ -275,14 +275,7 @@ def save_figure(fig, path) -> Path:
     fmt = path.suffix.lstrip(".").lower()
     if fmt not in ("svg", "pdf", "png"):
         raise ValueError(f"figure format must be svg, pdf or png, got {path.suffix!r}")
-    if fmt == "png":
-        data = to_png(fig)
-    else:
-        buf = io.BytesIO()
-        meta = {"Date": None} if fmt == "svg" else {"CreationDate": None}
-        fig.savefig(buf, format=fmt, metadata=meta, bbox_inches="tight", facecolor="white")
-        data = buf.getvalue()
-    write_bytes_atomic(path, data)
+    write_bytes_atomic(path, getattr(render(fig), fmt))
     return path
 
 
@@ -325,11 +318,11 @@ def plane_document(scan, *, date=None):
     if date:
         blocks.append(Paragraph(f"Report date: {date}."))
     fig = structure_map_figure(scan)
-    png = to_png(fig)
+    files = render(fig)
     doc = Document(title=f"Structure map: {scan.scan.name}")
     doc.sections.append(Section("overview", "Overview", tuple(blocks)))
     doc.sections.append(Section("structure-map", "Structure map", (Figure(
-        "structure_map", png,
+        "structure_map", files,
         "The plane coloured by structure (interpolated between the frames); boundary points with their "
         "uncertainty along their edge, joined per pair of structures (solid: fold, dashed: "
         "conflict, dotted: mixed or unresolved; hollow: judged unresolved); dots: grid frames, crosses: refinement "
