@@ -524,30 +524,8 @@ def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
     for required in ("name", "coordinate", "frames"):
         if required not in data:
             chk.fail(required, "missing (required)")
-    name = chk.string(data["name"], "name")
-    if "/" in name or "\\" in name or name.startswith("."):
-        chk.fail("name", f"must be usable as a folder name, got {name!r}")
-    description = chk.string(data["description"], "description") if "description" in data else ""
-    if len(description) > MAX_DESCRIPTION_CHARS:
-        chk.fail("description", f"{len(description)} characters long, more than the "
-                                f"{MAX_DESCRIPTION_CHARS} a description may take (it is copied "
-                                "into every output); put long notes in a file beside the manifest")
+    name, description, periodic, settings, tracking = _header(data, chk, path, lines)
     coord = _coordinate(data["coordinate"], chk)
-    periodic = chk.boolean(data["periodic"], "periodic") if "periodic" in data else False
-    analysis_raw = data.get("analysis") or {}
-    if not isinstance(analysis_raw, dict):
-        chk.fail("analysis", "expected a mapping of settings")
-    try:
-        settings = AnalysisSettings.from_mapping(analysis_raw, path=path)
-    except ConfigError as exc:
-        raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
-    tracking_raw = data.get("tracking") or {}
-    if not isinstance(tracking_raw, dict):
-        chk.fail("tracking", "expected a mapping of settings")
-    try:
-        tracking = TrackingSettings.from_mapping(tracking_raw, path=path)
-    except ConfigError as exc:
-        raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
     gen_raw = data.get("generator")
     generator = None
     if gen_raw is not None:
@@ -560,6 +538,30 @@ def load_manifest(path, *, max_points: int | None = None) -> ScanManifest:
                         analysis=settings, tracking=tracking, generator=generator,
                         generator_raw=gen_raw,
                         frames_directory=frames_dir, description=description)
+
+
+def _header(data, chk: KeyChecker, path, lines) -> tuple:
+    """The parts every manifest shares, 1-D or plane: name, description,
+    periodic, and the checked ``analysis`` and ``tracking`` sections."""
+    name = chk.string(data["name"], "name")
+    if "/" in name or "\\" in name or name.startswith("."):
+        chk.fail("name", f"must be usable as a folder name, got {name!r}")
+    description = chk.string(data["description"], "description") if "description" in data else ""
+    if len(description) > MAX_DESCRIPTION_CHARS:
+        chk.fail("description", f"{len(description)} characters long, more than the "
+                                f"{MAX_DESCRIPTION_CHARS} a description may take (it is copied "
+                                "into every output); put long notes in a file beside the manifest")
+    periodic = chk.boolean(data["periodic"], "periodic") if "periodic" in data else False
+    sections = []
+    for key, cls in (("analysis", AnalysisSettings), ("tracking", TrackingSettings)):
+        raw = data.get(key) or {}
+        if not isinstance(raw, dict):
+            chk.fail(key, "expected a mapping of settings")
+        try:
+            sections.append(cls.from_mapping(raw, path=path))
+        except ConfigError as exc:
+            raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
+    return (name, description, periodic, *sections)
 
 
 def _parse_generator(raw, path, lines):

@@ -345,7 +345,7 @@ def load_manifest_2d(data: dict, chk: KeyChecker, path: Path, lines: dict, *,
     ConfigError
         With the key path and line of the first problem.
     """
-    from trackscan.io.manifest import _parse_generator
+    from trackscan.io.manifest import _header, _parse_generator
 
     if "coordinate" in data:
         chk.fail("coordinate", "give either coordinate (a 1-D scan) or coordinates "
@@ -353,28 +353,8 @@ def load_manifest_2d(data: dict, chk: KeyChecker, path: Path, lines: dict, *,
     for required in ("name", "frames"):
         if required not in data:
             chk.fail(required, "missing (required)")
-    name = chk.string(data["name"], "name")
-    if "/" in name or "\\" in name or name.startswith("."):
-        chk.fail("name", f"must be usable as a folder name, got {name!r}")
-    description = chk.string(data["description"], "description") if "description" in data else ""
+    name, description, periodic, settings, tracking = _header(data, chk, path, lines)
     coords = _coordinates(data["coordinates"], chk)
-    periodic = chk.boolean(data["periodic"], "periodic") if "periodic" in data else False
-    analysis_raw = data.get("analysis") or {}
-    if not isinstance(analysis_raw, dict):
-        chk.fail("analysis", "expected a mapping of settings")
-    try:
-        settings = AnalysisSettings.from_mapping(analysis_raw, path=path)
-    except ConfigError as exc:
-        raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
-    from trackscan.settings import TrackingSettings
-
-    tracking_raw = data.get("tracking") or {}
-    if not isinstance(tracking_raw, dict):
-        chk.fail("tracking", "expected a mapping of settings")
-    try:
-        tracking = TrackingSettings.from_mapping(tracking_raw, path=path)
-    except ConfigError as exc:
-        raise ConfigError(exc.message, path, exc.key, lines.get(exc.key)) from None
     gen_raw = data.get("generator")
     generator = None
     if gen_raw is not None:
