@@ -527,7 +527,12 @@ class Frame(_Model):
         Cube file, relative to the manifest's folder.
     energy_hartree : float or None
     index : int or None
-        Position in scan order (set by tracking).
+        Position in scan order (set by tracking; shifts when refinement
+        adds frames).
+    label : str or None
+        Stable name of the frame (set by tracking,
+        :func:`trackscan.tracking.labels.frame_labels`): ``"1"``, ``"2"``,
+        ... for listed frames, ``"r1"``, ... for refined ones.
     structure : int or None
         Structure number (set by tracking).
     resolution : FrameResolution or None
@@ -548,6 +553,7 @@ class Frame(_Model):
     source: str | None = _key("source", mode=_OPTIONAL)
     energy_hartree: float | None = _key("energy_hartree", mode=_OPTIONAL)
     index: int | None = _key("index", mode=_OPTIONAL)
+    label: str | None = _key("label", mode=_OPTIONAL)
     structure: int | None = _key("structure", mode=_OPTIONAL)
     resolution: FrameResolution | None = _key("resolution", kind=FrameResolution,
                                               mode=_OPTIONAL)
@@ -619,6 +625,13 @@ class Frame(_Model):
             if cp.kind == "bond" and cp.id not in ends:
                 ends[cp.id] = cp.ends if len(cp.atoms) == 2 else (None, None)
         return ends
+
+    @property
+    def name(self) -> str:
+        """How the frame is named to a reader: its stable label, else its index."""
+        if self.label is not None:
+            return self.label
+        return "?" if self.index is None else str(self.index)
 
     def atom_label(self, number) -> str:
         """``"C1"`` for an atom number; attractor ids and None as written."""
@@ -747,7 +760,10 @@ class Change(_Model):
     ----------
     between : (2,) tuple of int
         Indices of the last frame with the old structure and the first with
-        the new one.
+        the new one (positions in scan order; they shift when refinement
+        adds frames).
+    between_labels : (2,) tuple of str or None
+        The same two frames by their stable labels (``Frame.label``).
     bracket : (2,) tuple of float
         Their coordinate values, in scan order.
     estimate : float or None
@@ -780,6 +796,7 @@ class Change(_Model):
     bracket: tuple = _key("bracket", default=dataclasses.MISSING)
     mechanism: str = _key("mechanism", default=dataclasses.MISSING)
     events: tuple = _key("events", kind=Event, many=True, default=())
+    between_labels: tuple | None = _key("between_labels", mode=_OPTIONAL)
     estimate: float | None = _key("estimate", mode=_OPTIONAL)
     estimate_method: str | None = _key("estimate_method", mode=_OPTIONAL)
     structures: tuple | None = _key("structures", mode=_OPTIONAL)
@@ -939,6 +956,13 @@ class ScanResult(_Model):
     def __repr__(self) -> str:
         return (f"<ScanResult {self.scan.name!r}: {len(self.frames)} frames, "
                 f"{len(self.structures)} structure(s), {len(self.changes)} change(s)>")
+
+    def frame_names(self, change) -> tuple:
+        """The stable names of the two frames of a change (``("4", "r2")``)."""
+        if change.between_labels:
+            return tuple(str(x) for x in change.between_labels)
+        names = {f.index: f.name for f in self.frames}
+        return tuple(names.get(k, str(k)) for k in change.between)
 
     def frame(self, index: int) -> Frame:
         """The frame with this index (scan order)."""

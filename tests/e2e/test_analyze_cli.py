@@ -99,7 +99,7 @@ def test_demo_fold_events_and_mechanism(analysed, capsys):
     assert ch["bracket"][0] < 65.855 < ch["bracket"][1]
     assert [f["structure"] for f in scan["frames"]] == [1, 1, 2, 2]
     tracks = {cp["track"] for f in scan["frames"] for cp in f["critical_points"]}
-    assert "R1" in tracks and "N1" in tracks
+    assert "ring-1" in tracks and "nucleus-1" in tracks
 
 
 def test_summary_table_in_words(scan_dir, capsys):

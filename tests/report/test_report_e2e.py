@@ -123,7 +123,9 @@ def test_critical_points_csv_has_every_cp_with_its_track(analysed):
         rows = list(csv.DictReader(fh))
     assert len(rows) == sum(len(f["critical_points"]) for f in scan["frames"])
     assert all(r["track"] for r in rows)
-    nuclei = [r for r in rows if r["kind"] == "nuclear" and r["frame"] == "0"]
+    first = min(scan["frames"], key=lambda f: f["index"])
+    assert first["label"] == "1"  # listed frames are named from 1
+    nuclei = [r for r in rows if r["kind"] == "nuclear" and r["frame"] == first["label"]]
     # measured on the geometry as written in the cube (8 decimals in bohr)
     assert float(nuclei[0]["coordinate [angstrom]"]) == pytest.approx(VALUES[0], abs=1e-4)
     x = sorted(float(r["x [angstrom]"]) for r in nuclei)

@@ -82,7 +82,7 @@ def _check_frames(header, rows, scan):
     assert len(rows) == len(frames)
     short = dict(zip(("n", "nna", "b", "r", "c", "deg."), KINDS))
     for row, f in zip(rows, frames):
-        assert row[col["Frame"]] == str(f["index"])
+        assert row[col["Frame"]] == f.get("label", str(f["index"]))
         assert shown_equals(row[col["Coordinate (Å)"]], f["value"])
         assert row[col["Structure"]] == str(f["structure"])
         shown = {k: int(row[col[s]]) for s, k in short.items()}

@@ -49,7 +49,7 @@ def test_fold_ring_opening():
     # the bond CP keeps one track while it exists
     tracks = [{cp["id"]: cp["track"] for cp in f["critical_points"]} for f in r["frames"]]
     assert len({t["b3"] for t in tracks[:3]}) == 1
-    assert all(t["n2"] == "N2" for t in tracks)
+    assert all(t["n2"] == "nucleus-2" for t in tracks)
 
 
 def test_conflict_switch():
@@ -132,7 +132,8 @@ def test_single_frame_flicker_below_significance_is_unresolved():
     for ch in r["changes"]:
         assert ch["mechanism"] == "unresolved"
         assert ch["mechanism_candidate"] == "fold"
-        assert "noise" in ch["note"] and "frame 3" in ch["note"]
+        # the flicker is in scan position 3, the 4th listed frame (labels count from 1)
+        assert "noise" in ch["note"] and "frame 4" in ch["note"]
 
 
 def test_single_frame_pair_with_clear_density_difference_is_a_fold():
@@ -167,7 +168,7 @@ def test_poincare_hopf_failure_is_unresolved():
     r = track_scan(frames)
     (ch,) = r["changes"]
     assert ch["mechanism"] == "unresolved" and ch["mechanism_candidate"] == "fold"
-    assert "frame 3 fails Poincaré–Hopf" in ch["note"]
+    assert "frame 4 fails Poincaré–Hopf" in ch["note"]  # scan position 3, listed frame 4
     assert r["incomplete_frames"] == [3]
 
 
@@ -223,7 +224,7 @@ def test_unpartnered_death_is_unresolved():
 def test_early_warning_before_a_fold_and_honest_without_one():
     r = track_scan(S.ring_opening_scan())
     (w,) = r["early_warnings"]
-    assert w["track"] == "B3" and w["change_between"] == [2, 3]
+    assert w["track"] == "bond-3" and w["change_between"] == [2, 3]
     assert "nearest_ring_bohr" in w["indicators"]
     # d^2 is linear in s with its zero at s* = 2.5 by construction
     assert w["projected"]["nearest_ring_bohr"] == pytest.approx(2.5)
@@ -236,7 +237,7 @@ def test_early_warning_before_a_fold_and_honest_without_one():
 
 def test_bond_series_reports_indicators():
     r = track_scan(S.ring_opening_scan())
-    (b3,) = [s for s in r["bond_tracks"] if s["track"] == "B3"]
+    (b3,) = [s for s in r["bond_tracks"] if s["track"] == "bond-3"]
     assert b3["frames"] == [0, 1, 2]
     d = np.array(b3["nearest_ring_bohr"])
     assert np.allclose(d, 0.6 * np.sqrt(2.5 - np.arange(3)))
@@ -338,7 +339,7 @@ def test_periodic_cp_wrapping_across_the_cell_face_keeps_its_track():
     assert r["changes"] == []
     # raw distance 3.96 bohr across the face, far beyond the gate: only the
     # minimum image keeps one track
-    assert {f["critical_points"][2]["track"] for f in r["frames"]} == {"B1"}
+    assert {f["critical_points"][2]["track"] for f in r["frames"]} == {"bond-1"}
 
 
 def _nna_scan():
@@ -371,9 +372,9 @@ def test_attractor_fold_with_its_path_rerouted_is_a_fold():
     kinds = sorted(e["kind"] for e in ch["events"])
     assert kinds == ["attractor_lost", "bond_broken", "bond_switched"]
     (sw,) = [e for e in ch["events"] if e["kind"] == "bond_switched"]
-    assert sw["atoms_before"] == [1, "A1"] and sw["atoms_after"] == [1, 2] and sw["by_fold"]
+    assert sw["atoms_before"] == [1, "nna-1"] and sw["atoms_after"] == [1, 2] and sw["by_fold"]
     assert describe_change(Change.from_dict(ch), ["Li", "Li"]) == (
-        "bond path Li2–NNA A1 broken; bond path Li1–NNA A1 switched to Li1–Li2; "
+        "bond path Li2–nna-1 broken; bond path Li1–nna-1 switched to Li1–Li2; "
         "non-nuclear attractor lost")
 
 

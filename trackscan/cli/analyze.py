@@ -68,7 +68,7 @@ def change_table(scan) -> list:
     rows = [("#", "frames", "bracket", "estimate", "mechanism", "events")]
     for n, ch in enumerate(scan.changes, start=1):
         mech = ch.mechanism + (" (resolution-limited)" if ch.resolution_limited else "")
-        rows.append((str(n), f"{ch.between[0]}–{ch.between[1]}", _bracket(ch, unit),
+        rows.append((str(n), "–".join(scan.frame_names(ch)), _bracket(ch, unit),
                      _estimate(ch, unit), mech, describe_change(ch, elements)))
     widths = [max(len(r[i]) for r in rows) for i in range(5)]
     return ["  ".join(c.ljust(w) for c, w in zip(r[:5], widths)) + "  " + r[5] for r in rows]
@@ -95,7 +95,8 @@ def summary_lines(scan) -> list:
                              "are linked differs")
     bad = scan.incomplete_frames
     if bad:
-        lines.append("warning: frame(s) " + ", ".join(str(k) for k in bad) +
+        names = {f.index: f.name for f in frames}
+        lines.append("warning: frame(s) " + ", ".join(names.get(k, str(k)) for k in bad) +
                      " fail Poincaré–Hopf (critical points may be missing); changes next to "
                      "them are unresolved")
     for w in scan.early_warnings:

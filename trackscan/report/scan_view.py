@@ -133,12 +133,13 @@ class ScanView:
         return self.frame(change.between[0]), self.frame(change.between[1])
 
     def frame_label(self, frame: Frame) -> str:
-        """How the report names a frame: its index, and its stable label when it has one."""
-        label = None
-        if frame.refine is not None:
-            label = frame.refine.extra.get("label")
-        label = label or frame.extra.get("label")
-        return f"{frame.index} ({label})" if label else str(frame.index)
+        """How the report names a frame: its stable label (``4``, ``r2``).
+
+        Listed frames keep their number and refined frames their ``r``
+        label when later refinement adds frames
+        (:func:`trackscan.tracking.labels.frame_labels`).
+        """
+        return frame.name
 
     def energy(self, frame: Frame):
         """Energy of a frame in hartree, or None."""

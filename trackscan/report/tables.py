@@ -243,7 +243,13 @@ def frame_table(scan: ScanView) -> Table:
     return Table("frames", tuple(header), tuple(rows),
                  "Per-frame results: critical points by kind (n nuclei, nna non-nuclear "
                  "attractors, b bond, r ring, c cage, deg. degenerate) and the Poincaré–Hopf "
-                 "relation.")
+                 "relation. " + FRAME_NAMING)
+
+
+#: How frames are named, for captions (:func:`trackscan.tracking.labels.frame_labels`).
+FRAME_NAMING = ("Frames are named 1, 2, … in the order the scan lists them; frames that "
+                "refinement computed are named r1, r2, … in the order they were computed. "
+                "A frame keeps its name when later refinement adds frames.")
 
 
 def warning_table(scan: ScanView):
@@ -325,7 +331,7 @@ def change_csv(scan: ScanView) -> tuple:
         res = change.resolution
         spacing = max(res.spacing_bohr) if res is not None and res.spacing_bohr else None
         rows.append((
-            str(k), str(change.between[0]), str(change.between[1]),
+            str(k), *scan.result.frame_names(change),
             _csv_coord(change.bracket[0], d), _csv_coord(change.bracket[1], d),
             _csv_coord(scan.estimate(change), d), fmt_uncertainty(q.value) if q else "",
             UNCERTAINTY_SOURCES.get(q.source, q.source) if q else "",
@@ -352,7 +358,7 @@ def critical_point_csv(scan: ScanView) -> tuple:
             atoms = " ".join(scan.label(a, f) for a in cp.atoms) if cp.kind != "cage" else ""
             pos = np.asarray(cp.position_bohr, float) * BOHR_IN_ANGSTROM
             rows.append((
-                str(f.index), _csv_coord(f.value, d), cp.id, str(cp.track or ""), cp.kind,
+                f.name, _csv_coord(f.value, d), cp.id, str(cp.track or ""), cp.kind,
                 _csv_number(cp.rank), _csv_number(cp.signature),
                 *(_csv_coord(float(x), POSITION_DECIMALS + 1) for x in pos),
                 _csv_number(cp.rho), _csv_number(cp.laplacian), _csv_number(ev[0]),

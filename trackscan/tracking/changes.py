@@ -113,7 +113,7 @@ def analyse_step(k, a, b, ta, tb, match, *, settings) -> StepEvents:
     by_a, by_b = a.cp_by_id(), b.cp_by_id()
     deaths = [by_a[i] for i in match.deaths]
     births = [by_b[i] for i in match.births]
-    for frame, group in ((k, deaths), (k + 1, births)):
+    for frame, group in ((a.label, deaths), (b.label, births)):
         for cp in group:
             if cp.kind == "degenerate":
                 out.notes.append(f"frame {frame} has a degenerate critical point ({cp.id}), "
@@ -131,7 +131,8 @@ def analyse_step(k, a, b, ta, tb, match, *, settings) -> StepEvents:
             continue
         if None in ea or None in eb:
             # an open path is an incomplete analysis, not a switch of partner
-            which = [f"{cp.id} of frame {f}" for cp, e, f in ((cpa, ea, k), (cpb, eb, k + 1))
+            which = [f"{cp.id} of frame {f}" for cp, e, f in ((cpa, ea, a.label),
+                                                              (cpb, eb, b.label))
                      if None in e]
             out.notes.append(f"the bond path of {' and '.join(which)} does not reach an "
                              f"attractor at both ends")
@@ -235,7 +236,7 @@ def _mark_noise(steps, views, tracks, aligned, settings):
                 drho = abs(hi.rho - lo.rho)
                 floor = rho_floor(max(lo.rho, hi.rho), mid.spacing, _digits(mid, settings))
                 if drho < settings.significance * floor:
-                    note = (f"the pair {pair[0]}/{pair[1]} exists only in frame {k + 1}, with a "
+                    note = (f"the pair {pair[0]}/{pair[1]} exists only in frame {mid.label}, with a "
                             f"density difference {drho:.2g} below {settings.significance:g} x the "
                             f"frame's resolution floor {floor:.2g}: noise, not a structural change")
                     s1.noise.append(note)
@@ -256,7 +257,7 @@ def _mark_noise(steps, views, tracks, aligned, settings):
                     floor = rho_floor(max(p.rho, q.rho), v.spacing, _digits(v, settings))
                     small &= abs(q.rho - p.rho) < settings.significance * floor
                 if small:
-                    note = (f"a {lo.kind}/{hi.kind} pair is missing only from frame {k + 1} and "
+                    note = (f"a {lo.kind}/{hi.kind} pair is missing only from frame {mid.label} and "
                             f"its density difference on both sides is below "
                             f"{settings.significance:g} x the resolution floor: noise, not a "
                             f"structural change")
@@ -334,16 +335,17 @@ def find_changes(views, tracks, matches, aligned, keys, graphs, structures, *, s
             "resolved": margin is None or margin >= 1.0,
         }
         mechanism = candidate
-        for v, idx in ((a, k), (b, k + 1)):
+        for v in (a, b):
             if not v.complete:
-                notes.append(f"frame {idx} fails Poincaré–Hopf or is incomplete")
+                notes.append(f"frame {v.label} fails Poincaré–Hopf or is incomplete")
                 mechanism = "unresolved"
         if not resolution["resolved"]:
             worst = min((p for p in pairs if p["margin"] is not None), key=lambda p: p["margin"])
             notes.append(f"the pair {worst['tracks'][0]}/{worst['tracks'][1]} (density difference "
                          f"{worst['rho_difference']:.2g}, separation "
                          f"{worst['separation_bohr']:.2g} bohr) is below the resolution floor of "
-                         f"frame {worst['frame']} (density {worst['rho_floor']:.2g}, separation "
+                         f"frame {views[worst['frame']].label} (density "
+                         f"{worst['rho_floor']:.2g}, separation "
                          f"{worst['separation_floor_bohr']:.2g} bohr); the mechanism "
                          "is read from the approach to the change")
         if st.noise:

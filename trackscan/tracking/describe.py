@@ -5,6 +5,7 @@ The words are those of :mod:`trackscan.vocabulary`, which the report uses too.
 
 from __future__ import annotations
 
+from trackscan.tracking.labels import TRACK_WORD
 from trackscan.vocabulary import event_phrase, events_phrase
 
 __all__ = ["atom_label", "describe_event", "describe_change"]
@@ -13,11 +14,13 @@ _DASH = "\u2013"
 
 
 def atom_label(end, elements) -> str:
-    """``C1`` for atom 1 when it is carbon; NNA tracks and open ends as words."""
+    """``C1`` for atom 1 when it is carbon; ``nna-1`` for an attractor track; open ends as words."""
     if end is None:
         return "(open end)"
     if isinstance(end, int) and 1 <= end <= len(elements):
         return f"{elements[end - 1]}{end}"
+    if str(end).startswith(TRACK_WORD["non_nuclear"] + "-"):
+        return str(end)
     return f"NNA {end}"
 
 

@@ -17,6 +17,7 @@ import numpy as np
 
 from trackscan.model import significant as sig
 from trackscan.tracking.describe import atom_label
+from trackscan.tracking.labels import track_sort_key
 
 __all__ = ["bond_series", "early_warnings"]
 
@@ -62,7 +63,7 @@ def bond_series(views, tracks, ends_of):
             s["min_abs_eigenvalue"].append(sig(cp.min_abs_eigenvalue))
             s["nearest_ring_bohr"].append(
                 sig(np.linalg.norm(rings - cp.position, axis=1).min()) if len(rings) else None)
-    return [series[t] for t in sorted(series, key=lambda t: int(t[1:]))]
+    return [series[t] for t in sorted(series, key=track_sort_key)]
 
 
 def _indicator(s, name, j):
@@ -93,7 +94,7 @@ def _flag(s, name, j, horizon, sign):
     return None
 
 
-def early_warnings(series, changes, *, horizon, sign, unit="", elements=()):
+def early_warnings(series, changes, *, horizon, sign, unit="", elements=(), labels=None):
     """Warnings for bond tracks whose indicators head for a fold.
 
     Parameters
@@ -110,6 +111,9 @@ def early_warnings(series, changes, *, horizon, sign, unit="", elements=()):
         Unit of the scan coordinate, for messages.
     elements : sequence of str
         Element symbols of the atoms, for messages (``C1``).
+    labels : sequence of str, optional
+        Stable frame labels in scan order, for messages (default: the
+        scan-order positions).
 
     Returns
     -------
@@ -119,6 +123,9 @@ def early_warnings(series, changes, *, horizon, sign, unit="", elements=()):
         the last flagged frame), ``change_between`` (the change involving the
         track at or after the first flagged frame, or None) and ``message``.
     """
+    def frame_name(k):
+        return str(k) if labels is None else labels[k]
+
     out = []
     for s in series:
         flagged, kinds, projected = [], set(), {}
@@ -146,10 +153,10 @@ def early_warnings(series, changes, *, horizon, sign, unit="", elements=()):
         unit_s = f" {unit}" if unit else ""
         proj = ", ".join(f"{projected[n]:.4g}{unit_s}" for n in sorted(projected))
         if follow is not None:
-            msg = (f"{where}: {names} from frame {flagged[0]}; the change between frames "
-                   f"{follow[0]} and {follow[1]} followed")
+            msg = (f"{where}: {names} from frame {frame_name(flagged[0])}; the change between "
+                   f"frames {frame_name(follow[0])} and {frame_name(follow[1])} followed")
         else:
-            msg = (f"{where}: {names} from frame {flagged[0]} (projected to vanish near {proj}); "
+            msg = (f"{where}: {names} from frame {frame_name(flagged[0])} (projected to vanish near {proj}); "
                    f"no structural change involving it occurs inside the scan")
         out.append({"track": s["track"], "atoms": s["atoms"], "frames": flagged,
                     "indicators": sorted(kinds), "projected": projected,

@@ -38,6 +38,11 @@ class FrameView:
     listed: int
 
     @property
+    def label(self) -> str:
+        """The frame's stable label (``Frame.label``), else its list position."""
+        return self.frame.label if self.frame.label is not None else str(self.listed)
+
+    @property
     def value(self) -> float:
         return float(self.frame.value)
 

@@ -15,11 +15,11 @@ import numpy as np
 from scipy.optimize import linear_sum_assignment
 
 from trackscan.tracking.frames import KINDS, MORSE_INDEX, displacement
+from trackscan.tracking.labels import nuclear_track_label, track_label
 
-__all__ = ["StepMatch", "match_step", "assign_tracks", "pair_folds", "TRACK_PREFIX"]
+__all__ = ["StepMatch", "match_step", "assign_tracks", "pair_folds"]
 
 #: Prefix of persistent track ids per kind; nuclear tracks are ``N<atom>``.
-TRACK_PREFIX = {"non_nuclear": "A", "bond": "B", "ring": "R", "cage": "C", "degenerate": "D"}
 
 _FORBIDDEN = 1.0e6
 
@@ -150,11 +150,12 @@ def assign_tracks(views, matches):
     Returns
     -------
     list of dict
-        Per frame: CP id -> track id.  Nuclear tracks are ``N<atom>``;
-        other tracks are numbered per kind in order of first appearance
-        (``B1``, ``R1``, ...), ties broken by the frame's CP order.
+        Per frame: CP id -> track id.  Labels follow :mod:`trackscan.tracking.labels`:
+        nuclear tracks are ``nucleus-<atom>``; other tracks are numbered
+        per kind in order of first appearance (``bond-1``, ``ring-1``,
+        ...), ties broken by the frame's CP order.
     """
-    counters = {k: 0 for k in TRACK_PREFIX}
+    counters = {}
     tracks = []
     for k, v in enumerate(views):
         inherited = {}
@@ -165,12 +166,12 @@ def assign_tracks(views, matches):
         cur = {}
         for cp in v.cps:
             if cp.kind == "nuclear":
-                cur[cp.id] = f"N{_nuclear_atom(cp, v.positions)}"
+                cur[cp.id] = nuclear_track_label(_nuclear_atom(cp, v.positions))
             elif cp.id in inherited:
                 cur[cp.id] = inherited[cp.id]
             else:
-                counters[cp.kind] += 1
-                cur[cp.id] = f"{TRACK_PREFIX[cp.kind]}{counters[cp.kind]}"
+                counters[cp.kind] = counters.get(cp.kind, 0) + 1
+                cur[cp.id] = track_label(cp.kind, counters[cp.kind])
         tracks.append(cur)
     return tracks
 

@@ -15,6 +15,7 @@ from trackscan.tracking.align import apply_transform, chain_alignments
 from trackscan.tracking.changes import find_changes
 from trackscan.tracking.early import bond_series, early_warnings
 from trackscan.tracking.frames import check_same_atoms, view_frame
+from trackscan.tracking.labels import frame_labels
 from trackscan.tracking.matching import assign_tracks, match_step
 from trackscan.tracking.resolution import interpolation_floor
 from trackscan.tracking.settings import TrackingSettings
@@ -133,6 +134,9 @@ def track_scan(frames, *, settings=None, unit=""):
     sign = -1 if direction == "descending" else 1
     order = sorted(range(len(views)), key=lambda i: sign * views[i].value)
     views = [views[i] for i in order]
+    labels = frame_labels([v.frame for v in views])
+    views = [dataclasses.replace(v, frame=dataclasses.replace(v.frame, label=lab))
+             for v, lab in zip(views, labels)]
     if any(v.cell is not None for v in views):
         # a periodic cell fixes the orientation; nuclei may wrap, so no Kabsch
         transforms = [(np.eye(3), np.zeros(3)) for _ in views]
@@ -159,7 +163,7 @@ def track_scan(frames, *, settings=None, unit=""):
 
     series = bond_series(views, tracks, ends_of)
     warnings = early_warnings(series, changes, horizon=settings.warning_horizon, sign=sign,
-                              unit=unit, elements=views[0].elements)
+                              unit=unit, elements=views[0].elements, labels=labels)
     out_frames = []
     for k, v in enumerate(views):
         cps = tuple(dataclasses.replace(cp, track=tracks[k][str(cp.id)]) for cp in v.cps)
@@ -171,7 +175,8 @@ def track_scan(frames, *, settings=None, unit=""):
                                               critical_points=cps, resolution=resolution))
     return TrackingResult(
         frames=tuple(out_frames),
-        changes=tuple(Change.from_dict(c, f"changes[{i}]") for i, c in enumerate(changes)),
+        changes=tuple(Change.from_dict({**c, "between_labels": [labels[k] for k in c["between"]]},
+                                       f"changes[{i}]") for i, c in enumerate(changes)),
         early_warnings=tuple(EarlyWarning.from_dict(w) for w in warnings),
         bond_tracks=tuple(BondTrack.from_dict(b) for b in series),
         structures=tuple(Structure.from_dict(t) for t in _structure_table(keys, structures)),
