@@ -54,10 +54,20 @@ MORSE_INDEX = {"nuclear": 0, "non_nuclear": 0, "bond": 1, "ring": 2, "cage": 3}
 #: (1e-6 of a degree or an angstrom is far below any scan step).
 VALUE_DECIMALS = 6
 
+#: Decimals kept of a total energy (hartree) in scan.json: 1e-9 hartree is
+#: below any SCF convergence threshold in use, and the last bits of an SCF
+#: energy differ between BLAS builds, which would break byte-identical output.
+ENERGY_DECIMALS = 9
+
 
 def round_value(x: float) -> float:
     """A coordinate value rounded to :data:`VALUE_DECIMALS` decimals."""
     return round(float(x), VALUE_DECIMALS)
+
+
+def round_energy(x):
+    """A total energy (hartree) rounded to :data:`ENERGY_DECIMALS`; None stays None."""
+    return None if x is None else round(float(x), ENERGY_DECIMALS)
 
 
 def significant(x, digits: int = 10):

@@ -20,7 +20,8 @@ import os
 from pathlib import Path
 
 from trackscan import __version__
-from trackscan.model import SCHEMA, Coordinate, ProbeRecord, ScanHeader, ScanResult
+from trackscan.model import (SCHEMA, Coordinate, ProbeRecord, ScanHeader, ScanResult,
+                             round_energy)
 
 __all__ = ["place_frame", "place_frames", "assemble_scan", "recorded_frames",
            "refined_tolerance", "summarise_refinement"]
@@ -65,7 +66,7 @@ def place_frame(frame, *, value, file, base_dir, energy=None, refine=None):
     return dataclasses.replace(
         frame, value=float(value),
         source=Path(os.path.relpath(file, base_dir)).as_posix(),
-        energy_hartree=None if energy is None else float(energy), refine=refine)
+        energy_hartree=round_energy(energy), refine=refine)
 
 
 def place_frames(manifest, frames, *, suggested=None) -> list:

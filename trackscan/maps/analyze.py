@@ -28,7 +28,7 @@ from trackscan.errors import InputError
 from trackscan.maps.model import (PLANE_DIMENSIONS, Boundary, PlaneFrame, PlaneHeader,
                                   PlaneScanResult)
 from trackscan.maps.plane import Edge, along_value, edge_frames, plane_edges
-from trackscan.model import Coordinate, Frame, ProbeRecord, Structure, Uncertainty
+from trackscan.model import Coordinate, Frame, ProbeRecord, Structure, Uncertainty, round_energy
 from trackscan.progress import report
 from trackscan.tracking import TrackingSettings, track_scan
 
@@ -152,7 +152,7 @@ def place_plane_frame(manifest, frame, file, values, energy=None, record=None) -
     fields = {f.name: getattr(frame, f.name) for f in dataclasses.fields(Frame)}
     fields.update(values=tuple(float(v) for v in values),
                   source=Path(os.path.relpath(file, manifest.base_dir)).as_posix(),
-                  energy_hartree=None if energy is None else float(energy),
+                  energy_hartree=round_energy(energy),
                   refine=ProbeRecord.from_dict(meta, "refine") if isinstance(meta, dict)
                   else getattr(frame, "refine", None))
     return PlaneFrame(**fields)
