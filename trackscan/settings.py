@@ -83,7 +83,8 @@ class AnalysisSettings:
         CP is reported as degenerate.  Default 1e-5.
     subtract_promolecule : bool
         Interpolate rho minus an analytic promolecule and add the
-        promolecule's exact derivatives back (METHODS.md, section 1).
+        promolecule's exact derivatives back, so the interpolant is smooth near
+        the nuclear cusps (described in the report's Methods).
         Default True.
     capture_radius : float
         A gradient path within this distance (bohr) of a nucleus ends there.
@@ -94,7 +95,7 @@ class AnalysisSettings:
     nuclear_radius : float
         Newton iterates entering a sphere of this radius (bohr) around a
         nucleus are abandoned and a converged point inside one is that
-        nucleus's attractor (the cusp; METHODS.md section 1).  Must stay
+        nucleus's attractor (rho has a cusp there, not a critical point).  Must stay
         below the distance from an H nucleus to its bond CP (about 0.35
         bohr in O-H).  Default 0.2.
     seed_retries : int

@@ -36,8 +36,21 @@ def test_foreign_output_folder_is_refused(tmp_path, capsys):
 def test_refined_scan_analysed_again_keeps_estimates(tmp_path, capsys):
     manifest = fm.write_scan(tmp_path / "scan", VALUES, spacing=0.2)
     out = tmp_path / "out"
+    assert main(["refine", str(manifest), "--tolerance", "0.05", "--out", str(out)]) == 0
+    coarse = json.loads((out / "scan.json").read_text())
     assert main(["refine", str(manifest), "--tolerance", "1e-3", "--out", str(out)]) == 0
     refined = json.loads((out / "scan.json").read_text())
+    # a frame keeps its name when refinement adds frames (issue 14): listed frames
+    # 1..N and the frames the first refinement computed, r1.., name the same values
+    named = {f["label"]: f["value"] for f in coarse["frames"]}
+    renamed = {f["label"]: f["value"] for f in refined["frames"]}
+    assert len(renamed) > len(named) > len(VALUES)
+    assert {k: renamed[k] for k in named} == named
+    assert [f["label"] for f in refined["frames"] if f.get("refine") is None] == [
+        str(n) for n in range(1, len(VALUES) + 1)]
+    (ch,) = refined["changes"]
+    lo, hi = (next(f for f in refined["frames"] if f["index"] == k) for k in ch["between"])
+    assert ch["between_labels"] == [lo["label"], hi["label"]]
     assert (out / MARKER).is_file()
     assert main(["analyze", str(manifest), "--out", str(out)]) == 0
     again = json.loads((out / "scan.json").read_text())

@@ -246,3 +246,17 @@ def test_fold_figure_draws_the_fit_and_zooms_on_the_estimate():
     # the fitted line reaches d^2 = 0 (two samples: the straight line through them)
     fit = [ln for ln in ax_zoom.lines if len(ln.get_xdata()) == 100]
     assert len(fit) == 1 and min(fit[0].get_ydata()) == 0.0
+
+
+def test_setting_meanings_drop_the_default_sentence_whole():
+    """ "Default 2.5." is removed up to the sentence's period, not the decimal point."""
+    import re
+
+    from trackscan.report.settings_text import setting_meanings
+
+    for group in ("settings", "tracking"):
+        meanings = setting_meanings(group)
+        assert meanings["fold_gate" if group == "tracking" else "gtol"][0]
+        for name, (meaning, _) in meanings.items():
+            assert not re.search(r"\.\d+\.$", meaning), (name, meaning)
+            assert "Default" not in meaning and "METHODS.md" not in meaning, (name, meaning)

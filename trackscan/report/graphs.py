@@ -339,21 +339,6 @@ def _structure_frame(scan: ScanView, structure):
     return frames[len(frames) // 2] if frames else None
 
 
-def _ranges(indices) -> str:
-    idx = sorted(indices)
-    if not idx:
-        return "—"
-    out, start, prev = [], idx[0], idx[0]
-    for i in idx[1:] + [None]:
-        if i is not None and i == prev + 1:
-            prev = i
-            continue
-        out.append(f"{start}–{prev}" if prev > start else f"{start}")
-        if i is not None:
-            start = prev = i
-    return ", ".join(out)
-
-
 @styled
 def structures_figure(scan: ScanView):
     """One molecular-graph panel per structure (its middle frame), all in one view plane."""
@@ -386,7 +371,7 @@ def structures_figure(scan: ScanView):
         place_atom_labels(ax, fig, sp)
     legend_below(fig, list(axes[:len(shown)]), legend_handles([f for _, f in shown],
                                                                changed=False), ncol=3)
-    parts = [f"structure {s.number} (frames {_ranges(s.frames)}) drawn from frame "
+    parts = [f"structure {s.number} (frames {scan.frame_ranges(s.frames)}) drawn from frame "
              f"{scan.frame_label(f)}" for s, f in shown]
     return Figure("structures", render(fig),
                   "The molecular graph of every structure along the scan, each drawn from "

@@ -141,6 +141,30 @@ class ScanView:
         """
         return frame.name
 
+    def frame_ranges(self, indices) -> str:
+        """Scan positions as runs of frame names: ``"1–4, r1"`` style, ``"—"`` if none.
+
+        Consecutive positions in scan order form one run, written as the
+        names of its first and last frame.
+        """
+        idx = sorted(int(i) for i in indices)
+        if not idx:
+            return "—"
+
+        def name(i):
+            f = self.frame(i)
+            return f.name if f is not None else str(i)
+
+        runs, start, prev = [], idx[0], idx[0]
+        for i in idx[1:] + [None]:
+            if i is not None and i == prev + 1:
+                prev = i
+                continue
+            runs.append(f"{name(start)}–{name(prev)}" if prev > start else name(start))
+            if i is not None:
+                start = prev = i
+        return ", ".join(runs)
+
     def energy(self, frame: Frame):
         """Energy of a frame in hartree, or None."""
         e = frame.energy_hartree

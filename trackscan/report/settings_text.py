@@ -59,7 +59,8 @@ def _unit(head: str, text: str) -> str:
 
 
 def _first_sentence(text: str) -> str:
-    text = re.sub(r"\s*Default [^.]*\.", "", text).strip()
+    # "Default 2.5." ends at the period that ends the sentence, not at the decimal point
+    text = re.sub(r"\s*Default .*?\.(?=\s|$)", "", text).strip()
     m = re.match(r"(.+?\.)(\s|$)", text)
     return (m.group(1) if m else text).replace("``", "")
 

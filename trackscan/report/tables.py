@@ -76,21 +76,6 @@ def summary_table(scan: ScanView) -> Table:
                  "uncertainty quoted for each estimate (see Methods).")
 
 
-def _ranges(indices) -> str:
-    idx = sorted(indices)
-    if not idx:
-        return "—"
-    out, start, prev = [], idx[0], idx[0]
-    for i in idx[1:] + [None]:
-        if i is not None and i == prev + 1:
-            prev = i
-            continue
-        out.append(f"{start}–{prev}" if prev > start else f"{start}")
-        if i is not None:
-            start = prev = i
-    return ", ".join(out)
-
-
 def structures_table(scan: ScanView):
     """One row per structure: its frames and coordinate range, bond paths, rings, cages."""
     structures = sorted(scan.result.structures, key=lambda s: s.number)
@@ -106,12 +91,13 @@ def structures_table(scan: ScanView):
         ref = frames[0] if frames else None
         paths = ", ".join(scan.labels(p, ref) for p in s.bond_paths) or "—"
         nna = ", ".join(str(x) for x in s.non_nuclear) or "—"
-        rows.append((str(s.number), _ranges(s.frames), span, str(len(s.bond_paths)), paths,
-                     str(s.rings), str(s.cages), nna))
+        rows.append((str(s.number), scan.frame_ranges(s.frames), span, str(len(s.bond_paths)),
+                     paths, str(s.rings), str(s.cages), nna))
     return Table("structures", ("Structure", "Frames", f"Coordinate{_u(scan)}", "Bond paths",
                                 "Atoms linked", "Rings", "Cages", "Non-nuclear attractors"),
                  tuple(rows), "The structures (classes of molecular graphs) along the scan "
-                 "and the frames that have them.")
+                 "and the frames that have them (a run of frames in scan order is written as its "
+                 "first and last frame).")
 
 
 def pair_table(scan: ScanView, change, number: int):
@@ -263,7 +249,7 @@ def warning_table(scan: ScanView):
         signs = ", ".join(INDICATORS.get(i, str(i).replace("_", " ")) for i in w.indicators or ())
         details = []
         if w.frames:
-            details.append(f"frames {_ranges(w.frames)}")
+            details.append(f"frames {scan.frame_ranges(w.frames)}")
         if w.projected:
             zeros = [f"{scan.with_unit(fmt_sig(v, 4))} ({PROJECTED_FROM.get(k, k.replace('_', ' '))})"
                      for k, v in w.projected.items() if isinstance(v, (int, float))]
@@ -271,7 +257,7 @@ def warning_table(scan: ScanView):
                 details.append("extrapolated to a change near " + ", ".join(zeros))
         if w.change_between:
             details.append("followed by the change between frames "
-                           + " and ".join(str(x) for x in w.change_between))
+                           + " and ".join(scan.frame_ranges([x]) for x in w.change_between))
         else:
             details.append("no change involving it inside the scan")
         rows.append((f"bond path {atoms}", signs or "—", "; ".join(details)))
