@@ -36,9 +36,12 @@ def test_foreign_output_folder_is_refused(tmp_path, capsys):
 def test_refined_scan_analysed_again_keeps_estimates(tmp_path, capsys):
     manifest = fm.write_scan(tmp_path / "scan", VALUES, spacing=0.2)
     out = tmp_path / "out"
-    assert main(["refine", str(manifest), "--tolerance", "0.05", "--out", str(out)]) == 0
+    assert main(["refine", str(manifest), "--tolerance", "0.05", "--out", str(out),
+                 "--no-report"]) == 0
     coarse = json.loads((out / "scan.json").read_text())
-    assert main(["refine", str(manifest), "--tolerance", "1e-3", "--out", str(out)]) == 0
+    assert not (out / "report.html").exists()
+    assert main(["refine", str(manifest), "--tolerance", "1e-3", "--out", str(out),
+                 "--no-report"]) == 0
     refined = json.loads((out / "scan.json").read_text())
     # a frame keeps its name when refinement adds frames (issue 14): listed frames
     # 1..N and the frames the first refinement computed, r1.., name the same values
@@ -64,3 +67,18 @@ def test_refined_scan_analysed_again_keeps_estimates(tmp_path, capsys):
     assert (out / "report.html").is_file()
     assert again["scan"]["manifest"] == "../scan/scan.yaml"
     assert "cube not found" not in (out / "report.md").read_text()
+    # --no-report: scan.json only, and the report of the earlier run goes (it would
+    # describe another result); a file the researcher put there stays
+    (out / "my_sketch.png").write_bytes(b"not trackscan's")
+    report_files = {p.name for p in out.iterdir()} - {"scan.json", "my_sketch.png", MARKER}
+    assert {"report.html", "report.md", "changes.csv"} <= report_files
+    capsys.readouterr()
+    assert main(["-q", "analyze", str(manifest), "--out", str(out), "--no-report"]) == 0
+    cap = capsys.readouterr()
+    assert "removed the report of an earlier run" in cap.err
+    assert "report.html" not in cap.out
+    left = {p.name for p in out.iterdir()}
+    assert not any(p.endswith((".html", ".md", ".csv", ".svg", ".pdf", ".xyz")) for p in left)
+    assert "my_sketch.png" in left and (out / "my_sketch.png").read_bytes() == b"not trackscan's"
+    assert json.loads((out / "scan.json").read_text()) == again
+    assert main(["-q", "report", str(out)]) == 0 and (out / "report.html").is_file()

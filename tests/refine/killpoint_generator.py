@@ -78,6 +78,11 @@ def main(argv):
 
 
 if __name__ == "__main__":
+    import faulthandler
+    import signal
+
+    # the test sends SIGUSR1 to a run that does not stop in time: every thread's stack
+    faulthandler.register(signal.SIGUSR1, all_threads=True)
     sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
     import killpoint_generator            # workers unpickle the class from this module name
 

@@ -169,7 +169,14 @@ def test_jobs2_signal_records_what_finished(scan, sig):
     _wait(lambda: (scan / "at-before").exists() and _recorded(scan), proc,
           "one finished and one held call")
     proc.send_signal(sig)
-    out, err = proc.communicate(timeout=60)
+    try:
+        out, err = proc.communicate(timeout=60)
+    except subprocess.TimeoutExpired:
+        proc.send_signal(signal.SIGUSR1)          # faulthandler: where it hangs
+        time.sleep(1.0)
+        os.killpg(proc.pid, signal.SIGKILL)
+        out, err = proc.communicate()
+        pytest.fail(f"refine did not stop within 60 s of {signal.Signals(sig).name}:\n{err}")
     assert proc.returncode == 128 + sig
     assert err.strip().splitlines()[-1].startswith(f"trackscan: interrupted by "
                                                    f"{signal.Signals(sig).name}")

@@ -24,7 +24,7 @@ from pathlib import Path
 
 from trackscan.analysis import analyze_scan, write_scan
 from trackscan.io.manifest import load_manifest
-from trackscan.cli.outputs import output_folder
+from trackscan.cli.outputs import add_report_argument, output_folder, write_or_drop_report
 from trackscan.progress import TextProgress
 from trackscan.tracking import describe_change
 
@@ -38,6 +38,7 @@ def add_arguments(parser) -> None:
     parser.add_argument("--dask", metavar="ADDRESS", default=None,
                         help="dask.distributed scheduler for the frame analyses (extra 'dask'; "
                              "its workers must see the cube files)")
+    add_report_argument(parser)
 
 
 def _bracket(ch, unit) -> str:
@@ -115,17 +116,16 @@ def run(args) -> int:
 
 
 def _analyze(args, manifest, out) -> int:
-    from trackscan.report import write_report
-
     progress = TextProgress()
     scan = analyze_scan(manifest, out_dir=out, jobs=args.jobs, progress=progress,
                         dask=args.dask)
     path = out / "scan.json"
     write_scan(path, scan)
-    files = write_report(path, out, source_dir=manifest.base_dir, progress=progress)
+    html = write_or_drop_report(args, path, out, source_dir=manifest.base_dir,
+                                progress=progress)
     progress.close()
     for line in summary_lines(scan):
         print(line)
-    print(f"wrote {os.fspath(path)} and {os.fspath(files.html)}")
+    print(f"wrote {os.fspath(path)}" + (f" and {os.fspath(html)}" if html else ""))
     sys.stdout.flush()
     return 0

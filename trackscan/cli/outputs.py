@@ -20,7 +20,7 @@ from pathlib import Path
 from trackscan.errors import InputError
 from trackscan.io.output import open_output_dir
 
-__all__ = ["output_folder"]
+__all__ = ["output_folder", "add_report_argument", "write_or_drop_report"]
 
 logger = logging.getLogger(__name__)
 
@@ -47,3 +47,34 @@ def output_folder(target):
             logger.debug("bad input: removing the output folder %s made by this run", target)
             shutil.rmtree(target, ignore_errors=True)
         raise
+
+
+def add_report_argument(parser) -> None:
+    """The ``--no-report`` option of the commands that write scan.json."""
+    parser.add_argument("--no-report", action="store_true",
+                        help="write scan.json only (no figures, tables or CSV; faster); "
+                             "draw the report later with 'trackscan report DIR'. A report "
+                             "an earlier run left in DIR is removed, since it would "
+                             "describe another result")
+
+
+def write_or_drop_report(args, scan_json, out, *, source_dir, progress=None):
+    """Write the report beside `scan_json`, or with ``--no-report`` remove a stale one.
+
+    Returns
+    -------
+    Path or None
+        The report.html written, or None.
+    """
+    import sys
+
+    from trackscan.report import write_report
+    from trackscan.report.writer import remove_report
+
+    if getattr(args, "no_report", False):
+        removed = remove_report(out)
+        if removed:
+            print(f"removed the report of an earlier run from {out} ({len(removed)} files); "
+                  f"draw a new one with: trackscan report {out}", file=sys.stderr)
+        return None
+    return write_report(scan_json, out, source_dir=source_dir, progress=progress).html

@@ -48,14 +48,19 @@ def plane_summary_lines(scan: dict) -> list:
     return lines
 
 
-def _write(scan, out, manifest, progress=None):
+def _write(args, scan, out, manifest, progress=None):
     from trackscan.analysis import write_scan
-    from trackscan.report import write_report
+    from trackscan.cli.outputs import write_or_drop_report
 
     path = out / "scan.json"
     write_scan(path, scan)
-    files = write_report(path, out, source_dir=manifest.base_dir, progress=progress)
-    return path, files
+    html = write_or_drop_report(args, path, out, source_dir=manifest.base_dir,
+                                progress=progress)
+    return path, html
+
+
+def _wrote(path, html) -> str:
+    return f"wrote {os.fspath(path)}" + (f" and {os.fspath(html)}" if html else "")
 
 
 def analyze_plane_command(args, manifest, out) -> int:
@@ -65,11 +70,11 @@ def analyze_plane_command(args, manifest, out) -> int:
     progress = TextProgress()
     scan = analyze_plane(manifest, out_dir=out, jobs=args.jobs, progress=progress,
                          dask=args.dask)
-    path, files = _write(scan, out, manifest, progress)
+    path, html = _write(args, scan, out, manifest, progress)
     progress.close()
     for line in plane_summary_lines(scan):
         print(line)
-    print(f"wrote {os.fspath(path)} and {os.fspath(files.html)}")
+    print(_wrote(path, html))
     sys.stdout.flush()
     return 0
 
@@ -93,7 +98,7 @@ def refine_plane_command(args, manifest, out) -> int:
                                     subdivide=getattr(args, "subdivide", False))
     finally:
         backend.close()
-    path, files = _write(scan, out, manifest)
+    path, html = _write(args, scan, out, manifest)
     progress.close()
     print(f"refine: {result.message}; {result.evaluations} new frame(s) this run on "
           f"{result.edges} boundary edge(s)"
@@ -102,6 +107,6 @@ def refine_plane_command(args, manifest, out) -> int:
           + f", {result.total_evaluations} in all")
     for line in plane_summary_lines(scan):
         print(line)
-    print(f"wrote {os.fspath(path)} and {os.fspath(files.html)}")
+    print(_wrote(path, html))
     sys.stdout.flush()
     return 0

@@ -39,6 +39,7 @@ import sys
 from pathlib import Path
 
 from trackscan.cli.analyze import summary_lines
+from trackscan.cli.outputs import add_report_argument, write_or_drop_report
 from trackscan.io.manifest import load_manifest
 from trackscan.progress import TextProgress
 
@@ -63,6 +64,7 @@ def add_arguments(parser) -> None:
                         help="only print the next values and write their geometries")
     parser.add_argument("--dask", metavar="ADDRESS", default=None,
                         help="dask.distributed scheduler for generator calls and analyses")
+    add_report_argument(parser)
 
 
 def _backend(args):
@@ -111,13 +113,11 @@ def _refine(args, manifest, out) -> int:
         backend.close()
     path = out / "scan.json"
     write_scan(path, scan)
-    from trackscan.report import write_report
-
-    files = write_report(path, out, source_dir=manifest.base_dir)
+    html = write_or_drop_report(args, path, out, source_dir=manifest.base_dir)
     print(f"refine: {result.message}; {result.evaluations} new frame(s) this run, "
           f"{result.total_evaluations} in all")
     for line in summary_lines(scan):
         print(line)
-    print(f"wrote {os.fspath(path)} and {os.fspath(files.html)}")
+    print(f"wrote {os.fspath(path)}" + (f" and {os.fspath(html)}" if html else ""))
     sys.stdout.flush()
     return 0

@@ -18,9 +18,17 @@ from trackscan.report.html import render_html
 from trackscan.report.markdown import image_name, render_markdown
 from trackscan.report.scan_view import load_scan
 
-__all__ = ["write_report", "ReportFiles"]
+__all__ = ["write_report", "ReportFiles", "remove_report", "REPORT_FILES", "REPORT_SUFFIXES"]
 
 logger = logging.getLogger(__name__)
+
+
+#: Fixed names of the report's files in its folder (of a 1-D scan and of a plane scan).
+REPORT_FILES = ("report.html", "report.md", "changes.csv", "critical_points.csv",
+                "structures.csv", "boundaries.csv")
+
+#: Suffixes of the report's other files there (figures, geometries at the estimates).
+REPORT_SUFFIXES = (".png", ".svg", ".pdf", ".xyz")
 
 
 class ReportFolderError(InputError):
@@ -127,3 +135,38 @@ def write_report(scan, out_dir, *, source_dir=None, date="today", progress=None)
     report(progress, TASK, steps, steps, str(html))
     return ReportFiles(html, md, changes_csv, cps_csv, tuple(images), tuple(vectors),
                        tuple(xyz))
+
+
+def remove_report(out_dir) -> list:
+    """Remove the report files an earlier run wrote into `out_dir`.
+
+    Used when a run writes a new scan.json without a report (``--no-report``):
+    a report left from an earlier run would describe another result.  Only
+    files the folder's ownership marker lists as trackscan's are removed
+    (:mod:`trackscan.io.ownership`): the fixed report names
+    (:data:`REPORT_FILES`) and top-level files with a report suffix
+    (:data:`REPORT_SUFFIXES`).  A file the user put there stays.
+
+    Returns
+    -------
+    list of str
+        The names removed, sorted.
+    """
+    import os
+
+    from trackscan.io.ownership import read_ownership
+
+    folder = Path(out_dir)
+    owner = read_ownership(folder)
+    if owner is None:
+        return []
+    removed = []
+    with os.scandir(folder) as entries:
+        for entry in entries:
+            name = entry.name
+            if not entry.is_file(follow_symlinks=False) or not owner.owns(name):
+                continue
+            if name in REPORT_FILES or Path(name).suffix in REPORT_SUFFIXES:
+                os.unlink(entry.path)
+                removed.append(name)
+    return sorted(removed)
