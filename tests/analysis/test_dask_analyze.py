@@ -38,7 +38,7 @@ def test_analyze_on_a_local_cluster_equals_a_local_run(tmp_path):
                               dask=cluster.scheduler_address)
         # the command line passes the address through
         out = tmp_path / "out"
-        assert main(["analyze", str(tmp_path / "scan.yaml"), "--out", str(out),
+        assert main(["analyze", str(tmp_path / "scan.yaml"), "--out", str(out), "--no-report",
                      "--dask", cluster.scheduler_address]) == 0
     assert dumps_scan(remote) == dumps_scan(local)
     (change,) = local.changes

@@ -70,7 +70,7 @@ def scan_dir(tmp_path_factory):
 
 
 def _analyze(manifest, out, *extra):
-    assert main(["analyze", str(manifest), "--out", str(out), *extra]) == 0
+    assert main(["analyze", str(manifest), "--out", str(out), "--no-report", *extra]) == 0
     return json.loads((out / "scan.json").read_text(encoding="utf-8"))
 
 
@@ -104,7 +104,8 @@ def test_demo_fold_events_and_mechanism(analysed, capsys):
 
 def test_summary_table_in_words(scan_dir, capsys):
     out = scan_dir / "out-words"
-    assert main(["analyze", str(scan_dir / "gen" / "scan.yaml"), "--out", str(out)]) == 0
+    assert main(["analyze", str(scan_dir / "gen" / "scan.yaml"), "--out", str(out),
+                 "--no-report"]) == 0
     printed = capsys.readouterr().out
     assert "bond path C1–C2 broken; ring CP lost" in printed
     assert "fold" in printed and "64 → 67 degree" in printed
@@ -156,7 +157,7 @@ def test_rotated_molecule_gives_same_changes(scan_dir, analysed):
 
 def test_default_output_folder(scan_dir, tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
-    assert main(["analyze", str(scan_dir / "listed.yaml")]) == 0
+    assert main(["analyze", str(scan_dir / "listed.yaml"), "--no-report"]) == 0
     assert (tmp_path / "reports" / "cyclo-listed" / "scan.json").is_file()
 
 

@@ -61,7 +61,8 @@ def test_vinylidene_demo_is_a_conflict(tmp_path, capsys):
     data["frames"]["values"] = VALUES
     (work / "scan.yaml").write_text(yaml.safe_dump(data))
     out = tmp_path / "out"
-    assert main(["analyze", str(work / "scan.yaml"), "--out", str(out), "--jobs", "2"]) == 0
+    assert main(["analyze", str(work / "scan.yaml"), "--out", str(out), "--jobs", "2",
+                 "--no-report"]) == 0
     printed = capsys.readouterr().out
     scan = json.loads((out / "scan.json").read_text(encoding="utf-8"))
     assert all(f["poincare_hopf"]["holds"] for f in scan["frames"])

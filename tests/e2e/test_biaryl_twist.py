@@ -96,7 +96,7 @@ def twist_scan(tmp_path_factory):
     manifest = root / "scan.yaml"
     assert main(["init", str(root / "cubes"), "--dihedral", *DIHEDRAL, "--name", "biphenyl",
                  "--out", str(manifest)]) == 0
-    assert main(["analyze", str(manifest), "--out", str(root / "out")]) == 0
+    assert main(["analyze", str(manifest), "--out", str(root / "out"), "--no-report"]) == 0
     scan = json.loads((root / "out" / "scan.json").read_text(encoding="utf-8"))
     return {"graphs": graphs, "scan": scan}
 

@@ -55,7 +55,7 @@ def cyclopropane_analyze(root: Path) -> Path:
 
     manifest = _copy_scan("cyclopropane-opening", root / "scan")
     out = root / "out"
-    assert main(["analyze", str(manifest), "--out", str(out)]) == 0
+    assert main(["analyze", str(manifest), "--out", str(out), "--no-report"]) == 0
     return out / "scan.json"
 
 
@@ -64,7 +64,8 @@ def cyclopropane_refine(root: Path) -> Path:
 
     manifest = _copy_scan("cyclopropane-opening", root / "scan", values=[58, 61, 64, 67, 70])
     out = root / "out"
-    assert main(["refine", str(manifest), "--tolerance", "0.5", "--out", str(out)]) == 0
+    assert main(["refine", str(manifest), "--tolerance", "0.5", "--out", str(out),
+                 "--no-report"]) == 0
     return out / "scan.json"
 
 
@@ -73,7 +74,7 @@ def vinylidene_analyze(root: Path) -> Path:
 
     manifest = _copy_scan("vinylidene-shift", root / "scan", values=[0.4, 0.5, 0.6])
     out = root / "out"
-    assert main(["analyze", str(manifest), "--out", str(out)]) == 0
+    assert main(["analyze", str(manifest), "--out", str(out), "--no-report"]) == 0
     return out / "scan.json"
 
 

@@ -33,7 +33,7 @@ def test_refine_through_a_local_cluster(tmp_path, capsys):
     local, remote = tmp_path / "local", tmp_path / "remote"
     for d in (local, remote):
         fm.write_scan(d, VALUES, spacing=0.2, margin=1.6)
-    args = ["--tolerance", "1e-3", "--jobs", "2"]
+    args = ["--tolerance", "1e-3", "--jobs", "2", "--no-report"]
     assert main(["refine", str(local / "scan.yaml"), *args, "--out", str(local / "out")]) == 0
     with distributed.LocalCluster(n_workers=2, processes=True, threads_per_worker=1,
                                   dashboard_address=None) as cluster:

@@ -35,7 +35,8 @@ def scan(tmp_path):
     """A fold-model scan whose own frames are made and analysed (cached) already."""
     folder = tmp_path / "scan"
     manifest = fm.write_scan(folder, VALUES, spacing=0.25, margin=1.5)
-    assert main(["-q", "analyze", str(manifest), "--out", str(tmp_path / "out")]) == 0
+    assert main(["-q", "analyze", str(manifest), "--out", str(tmp_path / "out"),
+                 "--no-report"]) == 0
     return folder
 
 
@@ -44,7 +45,7 @@ def _refine(folder, jobs, budget):
                OMP_NUM_THREADS="1", MPLBACKEND="Agg")
     cmd = [sys.executable, str(HERE / "killpoint_generator.py"), str(folder), "-q", "refine",
            str(folder / "scan.yaml"), "--tolerance", "1e-3", "--jobs", str(jobs),
-           "--max-evaluations", str(budget), "--out", str(folder.parent / "out")]
+           "--max-evaluations", str(budget), "--out", str(folder.parent / "out"), "--no-report"]
     return subprocess.Popen(cmd, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
                             text=True, start_new_session=True)
 

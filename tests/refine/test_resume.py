@@ -111,7 +111,7 @@ def test_parallel_round_with_a_failed_call(tmp_path):
         fh.write(f"  command: [{json.dumps(sys.executable)}, gen.py, '{{value}}', '{{xyz}}', "
                  "'{cube}']\n")
     (folder / "fail-once").write_text("")
-    args = ["refine", str(manifest), "--tolerance", "1e-3", "--jobs", "2",
+    args = ["refine", str(manifest), "--no-report", "--tolerance", "1e-3", "--jobs", "2",
             "--out", str(tmp_path / "out")]
     assert main(args) == 1                                   # the crash is reported
     first = (folder / "calls.txt").read_text().split()[4:]     # after the scan's own frames
