@@ -113,10 +113,11 @@ def analyse_step(k, a, b, ta, tb, match, *, settings) -> StepEvents:
     by_a, by_b = a.cp_by_id(), b.cp_by_id()
     deaths = [by_a[i] for i in match.deaths]
     births = [by_b[i] for i in match.births]
-    for frame, group in ((a.label, deaths), (b.label, births)):
+    for frame, group, tracks in ((a.label, deaths, ta), (b.label, births, tb)):
         for cp in group:
             if cp.kind == "degenerate":
-                out.notes.append(f"frame {frame} has a degenerate critical point ({cp.id}), "
+                out.notes.append(f"frame {frame} has a degenerate critical point "
+                                 f"({tracks.get(cp.id, cp.id)}), "
                                  f"the catastrophe itself or close to it")
     deaths = [cp for cp in deaths if cp.kind != "degenerate"]
     births = [cp for cp in births if cp.kind != "degenerate"]
@@ -131,8 +132,8 @@ def analyse_step(k, a, b, ta, tb, match, *, settings) -> StepEvents:
             continue
         if None in ea or None in eb:
             # an open path is an incomplete analysis, not a switch of partner
-            which = [f"{cp.id} of frame {f}" for cp, e, f in ((cpa, ea, a.label),
-                                                              (cpb, eb, b.label))
+            which = [f"{t[cp.id]} in frame {f}" for cp, e, f, t in ((cpa, ea, a.label, ta),
+                                                                     (cpb, eb, b.label, tb))
                      if None in e]
             out.notes.append(f"the bond path of {' and '.join(which)} does not reach an "
                              f"attractor at both ends")
