@@ -136,6 +136,10 @@ class LocalizedPromolecule(FieldBase):
         self._groups = sorted(set(self._species))               # species present
         index = {s: i for i, s in enumerate(self._groups)}
         self._code = np.array([index[s] for s in self._species], dtype=np.int64)
+        # atoms about their centroid, for the cheap first pass of _near_pairs
+        self._centre = positions.mean(axis=0) if len(positions) else np.zeros(3)
+        self._centred = positions - self._centre
+        self._centred_sq = np.einsum("ij,ij->i", self._centred, self._centred)
         self._table_r = np.linspace(0.0, self.r_out, int(np.ceil(self.r_out / _TABLE_STEP)) + 1)
         self._tables = {}
         self._terms = {}
@@ -169,14 +173,10 @@ class LocalizedPromolecule(FieldBase):
         hess = np.zeros((n, 3, 3)) if order >= 2 else None
         if n == 0 or len(self._species) == 0:
             return (val, grad, hess)[: order + 1]
-        # d[a, i] = pts[i] - positions[a]; pairs in atom-major order
-        d = pts[None, :, :] - self.positions[:, None, :]
-        r2 = np.einsum("ij,ij->i", d.reshape(-1, 3), d.reshape(-1, 3)).reshape(d.shape[:2])
-        atom, sel = np.nonzero(r2 < self.r_out * self.r_out)
+        atom, sel, d, r2 = self._near_pairs(pts)
         if len(sel) == 0:
             return (val, grad, hess)[: order + 1]
-        d = d[atom, sel]
-        r = np.sqrt(r2[atom, sel])
+        r = np.sqrt(r2)
         m = len(sel)
         f, _, d1_over, d2 = self._switched(r, self.positions[atom, 0], order,
                                            codes=self._code[atom])
@@ -193,6 +193,39 @@ class LocalizedPromolecule(FieldBase):
         contrib = (d2[:, None, None] * ee + d1_over[:, None, None] * (np.eye(3) - ee))
         hess += _sum_pairs(sel, contrib.reshape(m, 9), n).reshape(n, 3, 3)
         return val, grad, hess
+
+    def _near_pairs(self, pts):
+        """The (atom, point) pairs closer than ``r_out``, in atom-major order.
+
+        Returns
+        -------
+        atom, sel : (P,) int arrays
+            Atom and point index of each pair, sorted by atom, then point.
+        d : (P, 3) float array
+            ``pts[sel] - positions[atom]``.
+        r2 : (P,) float array
+            Squared lengths of `d`.
+
+        Notes
+        -----
+        A first pass takes the squared distances from one matrix product,
+        ``|p|^2 + |a|^2 - 2 a.p`` (coordinates about the atoms' centroid),
+        with a margin far above its rounding error; the pairs it keeps get
+        their differences and squared lengths computed directly, which
+        decide.  The result is the pairs, and the numbers, of testing every
+        difference directly, at a fraction of the cost when each point has
+        only a few atoms within ``r_out``.
+        """
+        c = pts - self._centre
+        c2 = np.einsum("ij,ij->i", c, c)
+        approx = (self._centred_sq[:, None] + c2[None, :]) - 2.0 * (self._centred @ c.T)
+        cut2 = self.r_out * self.r_out
+        slack = 1e-9 * (float(self._centred_sq.max()) + float(c2.max()) + cut2)
+        atom, sel = np.nonzero(approx < cut2 + slack)
+        d = pts[sel] - self.positions[atom]
+        r2 = np.einsum("ij,ij->i", d, d)
+        keep = r2 < cut2
+        return atom[keep], sel[keep], d[keep], r2[keep]
 
     def _switched(self, r, x0, order, *, codes=None, z=None):
         """F, F' and F'/r, F'' of the softened, switched atoms at distances r.
