@@ -138,8 +138,10 @@ class LocalizedPromolecule(FieldBase):
         self._code = np.array([index[s] for s in self._species], dtype=np.int64)
         # atoms about their centroid, for the cheap first pass of _near_pairs
         self._centre = positions.mean(axis=0) if len(positions) else np.zeros(3)
-        self._centred = positions - self._centre
-        self._centred_sq = np.einsum("ij,ij->i", self._centred, self._centred)
+        centred = positions - self._centre
+        sq = np.einsum("ij,ij->i", centred, centred)
+        self._centred = np.column_stack([centred, -0.5 * sq])      # (a, -|a|^2 / 2)
+        self._reach_sq = float(sq.max()) if len(sq) else 0.0
         self._table_r = np.linspace(0.0, self.r_out, int(np.ceil(self.r_out / _TABLE_STEP)) + 1)
         self._tables = {}
         self._terms = {}
@@ -208,20 +210,21 @@ class LocalizedPromolecule(FieldBase):
 
         Notes
         -----
-        A first pass takes the squared distances from one matrix product,
-        ``|p|^2 + |a|^2 - 2 a.p`` (coordinates about the atoms' centroid),
-        with a margin far above its rounding error; the pairs it keeps get
-        their differences and squared lengths computed directly, which
-        decide.  The result is the pairs, and the numbers, of testing every
-        difference directly, at a fraction of the cost when each point has
-        only a few atoms within ``r_out``.
+        A first pass tests ``|p - a|^2 < r_out^2`` as ``a.p - |a|^2 / 2 >
+        (|p|^2 - r_out^2) / 2`` (coordinates about the atoms' centroid), the
+        left side from one matrix product, with a margin far above its
+        rounding error; the pairs it keeps get their differences and squared
+        lengths computed directly, which decide.  The result is the pairs,
+        and the numbers, of testing every difference directly, at a fraction
+        of the cost when each point has only a few atoms within ``r_out``.
         """
         c = pts - self._centre
         c2 = np.einsum("ij,ij->i", c, c)
-        approx = (self._centred_sq[:, None] + c2[None, :]) - 2.0 * (self._centred @ c.T)
         cut2 = self.r_out * self.r_out
-        slack = 1e-9 * (float(self._centred_sq.max()) + float(c2.max()) + cut2)
-        atom, sel = np.nonzero(approx < cut2 + slack)
+        slack = 1e-9 * (self._reach_sq + float(c2.max()) + cut2)
+        lhs = self._centred[:, :3] @ c.T
+        lhs += self._centred[:, 3:]
+        atom, sel = np.nonzero(lhs > 0.5 * (c2 - cut2 - slack))
         d = pts[sel] - self.positions[atom]
         r2 = np.einsum("ij,ij->i", d, d)
         keep = r2 < cut2
@@ -328,6 +331,7 @@ class LocalizedPromolecule(FieldBase):
         out = np.zeros(tuple(shape))
         inv = np.linalg.inv(axes)
         half = self.r_out * np.linalg.norm(inv, axis=0)  # index half-widths
+        near_half = _EXACT_RADIUS * np.linalg.norm(inv, axis=0) + 1.0
         step = self._table_r[1]
         last = len(self._table_r) - 2
         orthogonal = bool(np.all(axes[~np.eye(3, dtype=bool)] == 0.0))
@@ -351,14 +355,28 @@ class LocalizedPromolecule(FieldBase):
                           + (ranges[1][None, :, None] * axes[1, comp]
                              + (ranges[2][None, None, :] * axes[2, comp] + rel[comp])))
                     r2 = dc * dc if r2 is None else r2 + dc * dc
-            r = np.sqrt(r2)
-            t = np.minimum(r * (1.0 / step), last + 0.999999)
+            r = np.sqrt(r2, out=r2)
+            # f = table[k] + (t - k) (table[k + 1] - f), in place (the block is
+            # large and this runs once per atom)
+            t = np.multiply(r, 1.0 / step)
+            np.minimum(t, last + 0.999999, out=t)
             k = t.astype(np.int64)
             table = self._table(species)
-            f = table[k]
-            f += (t - k) * (table[k + 1] - f)
-            near = r < _EXACT_RADIUS
-            if np.any(near):
-                f[near] = self._switched(r[near], pos[0], 0, z=species)[0]
+            f = np.take(table, k)
+            step_up = np.take(table[1:], k)
+            step_up -= f
+            t -= k
+            step_up *= t
+            f += step_up
+            del t, k, step_up
+            # the exact values near the nucleus, looked for only in the box around it
+            near_lo = np.maximum(np.floor(c - near_half).astype(np.int64), lo) - lo
+            near_hi = np.minimum(np.ceil(c + near_half).astype(np.int64), hi) - lo + 1
+            if np.all(near_hi > near_lo):
+                box = tuple(slice(a, b) for a, b in zip(near_lo, near_hi))
+                r_box, f_box = r[box], f[box]
+                near = r_box < _EXACT_RADIUS
+                if np.any(near):
+                    f_box[near] = self._switched(r_box[near], pos[0], 0, z=species)[0]
             out[lo[0]:hi[0] + 1, lo[1]:hi[1] + 1, lo[2]:hi[2] + 1] += f
         return out
