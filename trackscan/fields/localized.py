@@ -140,7 +140,8 @@ class LocalizedPromolecule(FieldBase):
         self._centre = positions.mean(axis=0) if len(positions) else np.zeros(3)
         centred = positions - self._centre
         sq = np.einsum("ij,ij->i", centred, centred)
-        self._centred = np.column_stack([centred, -0.5 * sq])      # (a, -|a|^2 / 2)
+        self._centred_t = np.ascontiguousarray(centred.T)           # (3, n)
+        self._half_sq = -0.5 * sq                                   # -|a|^2 / 2
         self._reach_sq = float(sq.max()) if len(sq) else 0.0
         self._table_r = np.linspace(0.0, self.r_out, int(np.ceil(self.r_out / _TABLE_STEP)) + 1)
         self._tables = {}
@@ -161,9 +162,9 @@ class LocalizedPromolecule(FieldBase):
         """Value and derivatives at points; see :class:`trackscan.field.Field`.
 
         All atoms are handled in one pass: the (point, atom) pairs within
-        ``r_out`` are listed atom by atom, the radial functions are computed
-        per element for all its pairs at once, and the contributions are
-        summed per point in atom order (so the sums equal those of a loop
+        ``r_out`` are listed point by point, in atom order for each point, the
+        radial functions are computed per element for all its pairs at once,
+        and the contributions are summed per point in atom order (so the sums equal those of a loop
         over the atoms, bit for bit).  Calls with few points (path steps,
         Newton iterations) then cost a fixed number of array operations
         instead of some per atom.
@@ -197,12 +198,13 @@ class LocalizedPromolecule(FieldBase):
         return val, grad, hess
 
     def _near_pairs(self, pts):
-        """The (atom, point) pairs closer than ``r_out``, in atom-major order.
+        """The (atom, point) pairs closer than ``r_out``, point by point.
 
         Returns
         -------
         atom, sel : (P,) int arrays
-            Atom and point index of each pair, sorted by atom, then point.
+            Atom and point index of each pair, sorted by point, then atom
+            (the order in which each point's sums run over the atoms).
         d : (P, 3) float array
             ``pts[sel] - positions[atom]``.
         r2 : (P,) float array
@@ -222,9 +224,10 @@ class LocalizedPromolecule(FieldBase):
         c2 = np.einsum("ij,ij->i", c, c)
         cut2 = self.r_out * self.r_out
         slack = 1e-9 * (self._reach_sq + float(c2.max()) + cut2)
-        lhs = self._centred[:, :3] @ c.T
-        lhs += self._centred[:, 3:]
-        atom, sel = np.nonzero(lhs > 0.5 * (c2 - cut2 - slack))
+        lhs = c @ self._centred_t
+        lhs += self._half_sq
+        sel, atom = np.divmod(np.flatnonzero(lhs > 0.5 * (c2 - cut2 - slack)[:, None]),
+                              len(self._half_sq))
         d = pts[sel] - self.positions[atom]
         r2 = np.einsum("ij,ij->i", d, d)
         keep = r2 < cut2
