@@ -56,6 +56,35 @@ def _switch(r, r_in, r_out):
     return s, ds, dds
 
 
+_SLAB = 1 << 14
+"""Points per slab in :func:`_table_values` (small enough to stay in cache)."""
+
+
+def _table_values(table, r, step, last):
+    """Linear interpolation of a radial table (spacing `step`) at distances `r`.
+
+    ``t = min(r / step, last + 0.999999)``, ``k = floor(t)``, value
+    ``table[k] + (t - k) (table[k + 1] - table[k])``; computed in slabs along
+    the first axis of `r`, in place within each, so that the temporaries
+    stay in cache (the blocks are large and this runs once per atom).
+    """
+    f = np.empty_like(r)
+    rows = max(1, _SLAB // max(1, r[0].size))
+    upper = table[1:]
+    for a in range(0, len(r), rows):
+        t = np.multiply(r[a:a + rows], 1.0 / step)
+        np.minimum(t, last + 0.999999, out=t)
+        k = t.astype(np.int64)
+        fa = f[a:a + rows]
+        np.take(table, k, out=fa)
+        up = np.take(upper, k)
+        up -= fa
+        t -= k
+        up *= t
+        fa += up
+    return f
+
+
 def _sum_pairs(sel, contrib, n):
     """Per-point sums of pair contributions (P, C): shape (n * C,), in pair order."""
     c = contrib.shape[1]
@@ -359,19 +388,7 @@ class LocalizedPromolecule(FieldBase):
                              + (ranges[2][None, None, :] * axes[2, comp] + rel[comp])))
                     r2 = dc * dc if r2 is None else r2 + dc * dc
             r = np.sqrt(r2, out=r2)
-            # f = table[k] + (t - k) (table[k + 1] - f), in place (the block is
-            # large and this runs once per atom)
-            t = np.multiply(r, 1.0 / step)
-            np.minimum(t, last + 0.999999, out=t)
-            k = t.astype(np.int64)
-            table = self._table(species)
-            f = np.take(table, k)
-            step_up = np.take(table[1:], k)
-            step_up -= f
-            t -= k
-            step_up *= t
-            f += step_up
-            del t, k, step_up
+            f = _table_values(self._table(species), r, step, last)
             # the exact values near the nucleus, looked for only in the box around it
             near_lo = np.maximum(np.floor(c - near_half).astype(np.int64), lo) - lo
             near_hi = np.minimum(np.ceil(c + near_half).astype(np.int64), hi) - lo + 1
