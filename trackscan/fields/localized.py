@@ -44,14 +44,18 @@ _TABLE_STEP = 1e-4
 _EXACT_RADIUS = 0.5
 
 
-def _switch(r, r_in, r_out):
-    """s, s' and s'' of the switching function at distances r."""
+def _switch(r, r_in, r_out, order: int = 2):
+    """s, s' and s'' of the switching function at distances r (None above `order`)."""
     w = r_out - r_in
     x = np.clip((r - r_in) / w, 0.0, 1.0)
     x2 = x * x
     s = 1.0 - x2 * x2 * (35.0 - 84.0 * x + 70.0 * x2 - 20.0 * x2 * x)
+    if order == 0:
+        return s, None, None
     om = 1.0 - x
     ds = -140.0 * (x2 * x) * (om * om * om) / w
+    if order == 1:
+        return s, ds, None
     dds = -420.0 * x2 * (om * om) * (1.0 - 2.0 * x) / (w * w)
     return s, ds, dds
 
@@ -257,9 +261,12 @@ class LocalizedPromolecule(FieldBase):
         lhs += self._half_sq
         sel, atom = np.divmod(np.flatnonzero(lhs > 0.5 * (c2 - cut2 - slack)[:, None]),
                               len(self._half_sq))
-        d = pts[sel] - self.positions[atom]
+        d = np.take(pts, sel, axis=0)
+        d -= np.take(self.positions, atom, axis=0)
         r2 = np.einsum("ij,ij->i", d, d)
         keep = r2 < cut2
+        if keep.all():      # the usual case: the margin rarely admits a pair
+            return atom, sel, d, r2
         return atom[keep], sel[keep], d[keep], r2[keep]
 
     def _switched(self, r, x0, order, *, codes=None, z=None):
@@ -289,7 +296,7 @@ class LocalizedPromolecule(FieldBase):
         dx = (rs + x0) - x0
         rr = np.sqrt(dx * dx)
         f, d1r, d2 = self._free(rr, order, codes, z)
-        s, ds, dds = _switch(r, self.r_in, self.r_out)
+        s, ds, dds = _switch(r, self.r_in, self.r_out, order)
         if order == 0:
             return s * f, None, None, None
         near = rr < _R_FLOOR
