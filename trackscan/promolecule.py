@@ -185,29 +185,35 @@ def core_terms(z: int, electrons: int):
 
 
 def _radial(terms, r, order):
-    """f, f', f'/r and f'' of a sum of radial terms at distances r (> 0 for 1/r)."""
+    """f, f', f'/r and f'' of a sum of radial terms at distances r (> 0 for 1/r).
+
+    f'' is None below order 2.
+    """
     f = np.zeros_like(r)
     if order == 0:
         for c, m, a in terms:
             e = c * np.exp(-a * r)
             f += e * r ** m if m else e
         return f, None, None, None
+    second = order >= 2
     d1_over_r = np.zeros_like(r)
-    d2 = np.zeros_like(r)
+    d2 = np.zeros_like(r) if second else None
     rs = np.maximum(r, _R_FLOOR)
     for c, m, a in terms:
         e = c * np.exp(-a * r)
         if m == 0:
             f += e
             d1_over_r -= a * e / rs
-            d2 += a * a * e
+            if second:
+                d2 += a * a * e
         else:
             rm2 = r ** (m - 2) if m > 2 else 1.0
             rm1 = rm2 * r
             rm = rm1 * r
             f += e * rm
             d1_over_r += e * (m * rm2 - a * rm1)
-            d2 += e * (m * (m - 1) * rm2 - 2.0 * a * m * rm1 + a * a * rm)
+            if second:
+                d2 += e * (m * (m - 1) * rm2 - 2.0 * a * m * rm1 + a * a * rm)
     d1 = d1_over_r * r
     return f, d1, d1_over_r, d2
 

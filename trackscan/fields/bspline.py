@@ -203,11 +203,11 @@ class TricubicBSpline:
             t = u - cell
         base = cell.astype(np.int64) @ self._strides
         coef = self._coef[base[:, None] + self._offsets[None, :]]  # (N, w^3)
-        wx = self._weights(t[:, 0], order)
-        wy = self._weights(t[:, 1], order)
-        wz = self._weights(t[:, 2], order)
         k = order + 1
         m = len(u)
+        # the weights of the three axes in one call (elementwise, so the same
+        # numbers as one call per axis); axis-major, so each axis is contiguous
+        wx, wy, wz = self._weights(t.T.ravel(), order).reshape(3, m, k, self._w)
         q = self._w
         # contract z, then y, then x: c[a,b,c] -> f[dx,dy,dz]
         tz = np.matmul(coef.reshape(m, q * q, q), wz.transpose(0, 2, 1))     # [a b | dz]

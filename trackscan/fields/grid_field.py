@@ -304,7 +304,6 @@ def _smooth_cores(values, grid, heavy, radius):
        SEASAT altimeter data", Geophys. Res. Lett. 14, 139 (1987).
        :DOI:`10.1029/GL014i002p00139`
     """
-    from scipy import sparse
     from scipy.sparse.linalg import spsolve
 
     radii = np.broadcast_to(np.asarray(radius, dtype=np.float64), (grid.n_atoms,))
@@ -314,6 +313,7 @@ def _smooth_cores(values, grid, heavy, radius):
     values = np.array(values, dtype=np.float64)
     inv = np.linalg.inv(grid.axes)
     shape = np.asarray(grid.shape)
+    laplacians = {}
     for pos, radius in zip(grid.positions[heavy], radii[heavy]):
         half = radius * np.linalg.norm(inv, axis=0) + 3.0
         c = (pos - grid.origin) @ inv
@@ -332,15 +332,9 @@ def _smooth_cores(values, grid, heavy, radius):
         inner = np.linalg.norm(d, axis=1) < radius
         if not np.any(inner):
             continue
-        flat = np.arange(y.size).reshape(dims)
-        centre = flat[1:-1, 1:-1, 1:-1].ravel()
-        m = len(centre)
-        nbrs = [flat[2:, 1:-1, 1:-1], flat[:-2, 1:-1, 1:-1], flat[1:-1, 2:, 1:-1],
-                flat[1:-1, :-2, 1:-1], flat[1:-1, 1:-1, 2:], flat[1:-1, 1:-1, :-2]]
-        lap = sparse.csr_matrix(
-            (np.concatenate([np.full(m, -6.0), np.ones(6 * m)]),
-             (np.tile(np.arange(m), 7), np.concatenate([centre] + [b.ravel() for b in nbrs]))),
-            shape=(m, y.size))
+        if dims not in laplacians:      # blocks of the same size share it
+            laplacians[dims] = _block_laplacian(dims)
+        lap = laplacians[dims]
         lu, lk = lap[:, inner], lap[:, ~inner]
         normal = (lu.T @ lu).tocsc()
         rhs = -(lu.T @ (lk @ y[~inner]))
@@ -350,3 +344,19 @@ def _smooth_cores(values, grid, heavy, radius):
             y[inner] = _solve_large_fill(normal, rhs)
         values[block] = y.reshape(dims)
     return values
+
+
+def _block_laplacian(dims):
+    """The 7-point Laplacian of the interior nodes of a block (sparse, rows: interior nodes)."""
+    from scipy import sparse
+
+    size = dims[0] * dims[1] * dims[2]
+    flat = np.arange(size).reshape(dims)
+    centre = flat[1:-1, 1:-1, 1:-1].ravel()
+    m = len(centre)
+    nbrs = [flat[2:, 1:-1, 1:-1], flat[:-2, 1:-1, 1:-1], flat[1:-1, 2:, 1:-1],
+            flat[1:-1, :-2, 1:-1], flat[1:-1, 1:-1, 2:], flat[1:-1, 1:-1, :-2]]
+    return sparse.csr_matrix(
+        (np.concatenate([np.full(m, -6.0), np.ones(6 * m)]),
+         (np.tile(np.arange(m), 7), np.concatenate([centre] + [b.ravel() for b in nbrs]))),
+        shape=(m, size))

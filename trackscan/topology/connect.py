@@ -1,9 +1,10 @@
 """How critical points connect: bond paths, ring atoms, cage rings.
 
-All gradient paths of a frame are integrated in two batches
-(:func:`trackscan.topology.paths.trace_paths`): one uphill batch holding both
-halves of every bond path and the rays of every ring surface, one downhill
-batch from the ring CPs towards the cage CPs.
+All gradient paths of a frame are integrated in two sets, together
+(:func:`trackscan.topology.paths.trace_path_sets`): one uphill set holding
+both halves of every bond path and the rays of every ring surface, one
+downhill set from the ring CPs towards the cage CPs (then the added rays of
+ring surfaces that did not close, :func:`_refine_rings`).
 
 - Bond path [1]_: from the bond CP at ``+/- delta`` along the eigenvector of
   its positive eigenvalue, uphill to an attractor.  A half that does not
@@ -40,7 +41,7 @@ import itertools
 
 import numpy as np
 
-from trackscan.topology.paths import trace_paths
+from trackscan.topology.paths import trace_path_sets, trace_paths
 from trackscan.topology.results import BondPath
 
 __all__ = ["connect_points", "end_key", "RING_RAYS", "RING_REFINE_ROUNDS", "RING_RADII",
@@ -264,9 +265,18 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
             owners.append(("r", i, a))
     halves = {}
     ring_hits = {i: {} for i in range(len(rings))}      # angle -> end label
+    sets = []
     if starts:
-        bundle = trace_paths(field, np.array(starts), uphill=True, targets=targets, radii=radii,
-                             inside=region.in_grid, first_points=np.array(firsts))
+        sets.append(dict(starts=np.array(starts), uphill=True, targets=targets, radii=radii,
+                         inside=region.in_grid, first_points=np.array(firsts)))
+    cage_set = _cage_paths(rings, cages, region=region, settings=settings)
+    if cage_set is not None:
+        sets.append(cage_set)
+    # the uphill paths and those down into the cages in one integration
+    bundles = trace_path_sets(field, sets)
+    cage_bundle = bundles.pop() if cage_set is not None else None
+    if starts:
+        bundle = bundles[0]
         for k, (what, i, *a) in enumerate(owners):
             t = int(bundle.target[k])
             pts = bundle.points[k]
@@ -307,27 +317,42 @@ def connect_points(field, nuclear, attractors, bonds, rings, cages, *, region, s
                   label=label)
     for i, cp in enumerate(rings):
         cp.atoms = _cyclic_sequence([ring_hits[i][a] for a in sorted(ring_hits[i])])
-    if cages and rings:
-        starts, owners = [], []
-        for i, cp in enumerate(rings):
-            e1 = cp.eigenvectors[0]
-            for s in (-1.0, 1.0):
-                starts.append(cp.position + s * PATH_OFFSET * e1)
-                owners.append(i)
-        ctargets = np.array([cp.position for cp in cages])
-        bundle = trace_paths(field, np.array(starts), uphill=False, targets=ctargets,
-                             radii=np.full(len(cages), 2 * settings.capture_radius),
-                             inside=region.in_grid, floor=_cage_path_floor(cages, settings))
-        for k, i in enumerate(owners):
-            t = int(bundle.target[k])
-            if t < 0 and bundle.reason[k] == "stalled":
-                # converged towards a minimum: take the nearest cage within 0.5 bohr
-                d = np.linalg.norm(ctargets - bundle.points[k][-1], axis=1)
-                if d.min() < 0.5:
-                    t = int(np.argmin(d))
-            if t >= 0 and i not in cages[t].rings:
-                cages[t].rings.append(i)
+    if cage_bundle is not None:
+        _cage_rings(cage_bundle, rings, cages, cage_set["targets"])
     return paths
+
+
+def _cage_paths(rings, cages, *, region, settings):
+    """The set of paths from each ring CP down to the cages (options of trace_paths), or None.
+
+    From a ring CP along +/- the eigenvector of its negative eigenvalue;
+    path ``2 i`` and ``2 i + 1`` leave ring ``i``.
+    """
+    if not (cages and rings):
+        return None
+    starts = []
+    for cp in rings:
+        e1 = cp.eigenvectors[0]
+        for s in (-1.0, 1.0):
+            starts.append(cp.position + s * PATH_OFFSET * e1)
+    return dict(starts=np.array(starts), uphill=False,
+                targets=np.array([cp.position for cp in cages]),
+                radii=np.full(len(cages), 2 * settings.capture_radius),
+                inside=region.in_grid, floor=_cage_path_floor(cages, settings))
+
+
+def _cage_rings(bundle, rings, cages, ctargets):
+    """Add to each cage's ``rings`` the rings whose paths (:func:`_cage_paths`) end in it."""
+    for k in range(2 * len(rings)):
+        i = k // 2
+        t = int(bundle.target[k])
+        if t < 0 and bundle.reason[k] == "stalled":
+            # converged towards a minimum: take the nearest cage within 0.5 bohr
+            d = np.linalg.norm(ctargets - bundle.points[k][-1], axis=1)
+            if d.min() < 0.5:
+                t = int(np.argmin(d))
+        if t >= 0 and i not in cages[t].rings:
+            cages[t].rings.append(i)
 
 
 def _cage_path_floor(cages, settings) -> float:

@@ -9,6 +9,12 @@ a target (nuclei and non-nuclear attractors going uphill; cage CPs going
 downhill), leaves the allowed region, drops below the density floor, stalls
 (|grad rho| vanishes away from every target), or runs out of steps.
 
+Several sets of paths (each with its own direction, targets and limits) can
+be integrated together (:func:`trace_path_sets`): every step then evaluates
+the field once at the points of all sets.  A point's value and gradient do
+not depend on the other points of an evaluation, so each path is the same,
+number for number, as when its set is traced alone.
+
 Used for bond paths (from a bond CP along +/- the eigenvector of its
 positive eigenvalue [2]_), for the gradient paths of a ring surface (from a
 ring CP within the plane of its two positive eigenvectors) and for the path
@@ -32,7 +38,7 @@ import numpy as np
 from trackscan.errors import DegenerateDensityError
 from trackscan.topology.limits import MAX_PATH_STEPS
 
-__all__ = ["trace_paths", "PathBundle", "OPEN", "TARGET"]
+__all__ = ["trace_paths", "trace_path_sets", "PathBundle", "OPEN", "TARGET"]
 
 TARGET = "target"
 OPEN = "open"
@@ -66,8 +72,8 @@ class PathBundle:
     reason: list
 
 
-def _direction(field, x, sign):
-    v, g = field.evaluate(x, 1)
+def _direction(v, g, sign):
+    """Value, unit step direction and gradient norm from a field evaluation."""
     gn = np.linalg.norm(g, axis=1)
     return v, sign * g / np.maximum(gn, 1e-300)[:, None], gn
 
@@ -101,17 +107,92 @@ def trace_paths(field, starts, *, uphill: bool = True, targets=None, radii=None,
     -------
     PathBundle
     """
+    return trace_path_sets(field, [dict(starts=starts, uphill=uphill, targets=targets,
+                                        radii=radii, inside=inside, floor=floor,
+                                        first_points=first_points, max_steps=max_steps,
+                                        tol=tol)])[0]
+
+
+def trace_path_sets(field, sets) -> list:
+    """Integrate several sets of gradient paths together, one field evaluation per step.
+
+    Parameters
+    ----------
+    field : Field
+    sets : list of dict
+        The keyword arguments of :func:`trace_paths` (``starts`` and the
+        options) for each set.
+
+    Returns
+    -------
+    list of PathBundle
+        One per set, each equal to what :func:`trace_paths` gives for that
+        set alone.
+    """
+    runs = [_integrate(**options) for options in sets]
+    out = [None] * len(runs)
+    wanted = {}
+    for k, run in enumerate(runs):
+        try:
+            wanted[k] = next(run)
+        except StopIteration as stop:
+            out[k] = stop.value
+    while wanted:
+        keys = list(wanted)
+        sizes = [len(wanted[k]) for k in keys]
+        v, g = field.evaluate(np.concatenate([wanted[k] for k in keys]), 1)
+        bounds = np.cumsum([0] + sizes)
+        for k, a, b in zip(keys, bounds[:-1], bounds[1:]):
+            try:
+                wanted[k] = runs[k].send((v[a:b], g[a:b]))
+            except StopIteration as stop:
+                out[k] = stop.value
+                del wanted[k]
+    return out
+
+
+class _Targets:
+    """Capture spheres, with a cheap first test of which points may be in one."""
+
+    def __init__(self, centres, radii):
+        self.centres = centres
+        self.radii = radii
+        if len(centres):
+            self._origin = centres.mean(axis=0)
+            c = centres - self._origin
+            # |y - c|^2 < r^2  <=>  y.c - |c|^2 / 2 + r^2 / 2 > |y|^2 / 2
+            self._shift = 0.5 * (radii * radii - np.einsum("ij,ij->i", c, c))
+            self._centred = c
+            self._scale = float(np.max(np.einsum("ij,ij->i", c, c) + radii * radii))
+
+    def near(self, y):
+        """Rows of `y` that may lie within a capture sphere (a superset of those that do)."""
+        c = y - self._origin
+        c2 = np.einsum("ij,ij->i", c, c)
+        lhs = c @ self._centred.T
+        lhs += self._shift
+        slack = 1e-9 * (self._scale + float(c2.max()))
+        return np.any(lhs > 0.5 * c2[:, None] - slack, axis=1)
+
+
+def _integrate(*, starts, uphill=True, targets=None, radii=None, inside=None, floor=0.0,
+               first_points=None, max_steps=_MAX_STEPS, tol=_TOL):
+    """The integration of :func:`trace_paths`, as a generator.
+
+    Yields the points at which it needs the field, receives ``(value,
+    gradient)`` there, and returns the PathBundle.
+    """
     y = np.array(starts, dtype=np.float64).reshape(-1, 3)
     p = len(y)
     sign = 1.0 if uphill else -1.0
     tg = np.zeros((0, 3)) if targets is None else np.asarray(targets, dtype=float).reshape(-1, 3)
     rad = np.broadcast_to(np.asarray(0.1 if radii is None else radii, dtype=float), (len(tg),))
+    spheres = _Targets(tg, rad)
     target = np.full(p, -1, dtype=np.int64)
     reason = [""] * p
-    hist = [[] if first_points is None else [np.asarray(first_points[i], float)]
-            for i in range(p)]
-    for i in range(p):
-        hist[i].append(y[i].copy())
+    # the polylines: every accepted step is logged as (path indices, points)
+    # and sorted into the paths at the end
+    log_idx, log_pts = [np.arange(p)], [y.copy()]
     h = np.full(p, _H0)
     steps = np.zeros(p, dtype=np.int64)
     backwards = np.zeros(p, dtype=np.int64)   # accepted steps on which rho did not progress
@@ -124,20 +205,20 @@ def trace_paths(field, starts, *, uphill: bool = True, targets=None, radii=None,
             reason[i] = why
         active[idx] = False
 
-    _check_end(y, np.arange(p), tg, rad, target, finish, hist, inside, None, floor)
+    _check_end(y, np.arange(p), spheres, target, finish, inside, None, floor)
     k1 = np.zeros_like(y)
     idx = np.nonzero(active)[0]
     if len(idx):
-        _, k1[idx], _ = _direction(field, y[idx], sign)
+        _, k1[idx], _ = _direction(*(yield y[idx]), sign)
     while True:
         idx = np.nonzero(active)[0]
         if len(idx) == 0:
             break
         yi, hi, a1 = y[idx], h[idx][:, None], k1[idx]
-        _, a2, _ = _direction(field, yi + 0.5 * hi * a1, sign)
-        _, a3, _ = _direction(field, yi + 0.75 * hi * a2, sign)
+        _, a2, _ = _direction(*(yield yi + 0.5 * hi * a1), sign)
+        _, a3, _ = _direction(*(yield yi + 0.75 * hi * a2), sign)
         y3 = yi + hi * (2.0 / 9.0 * a1 + 1.0 / 3.0 * a2 + 4.0 / 9.0 * a3)
-        v4, a4, g4 = _direction(field, y3, sign)
+        v4, a4, g4 = _direction(*(yield y3), sign)
         y2 = yi + hi * (7.0 / 24.0 * a1 + 0.25 * a2 + 1.0 / 3.0 * a3 + 0.125 * a4)
         err = np.linalg.norm(y3 - y2, axis=1)
         ok = (err <= tol) | (hi[:, 0] <= _HMIN * 1.0001)
@@ -158,29 +239,50 @@ def trace_paths(field, starts, *, uphill: bool = True, targets=None, radii=None,
         worse = (vn <= last_v[acc]) if uphill else (vn >= last_v[acc])
         backwards[acc] += worse
         last_v[acc] = vn
-        for i, pt in zip(acc, y3[ok]):
-            hist[i].append(pt.copy())
+        log_idx.append(acc)
+        log_pts.append(y3[ok])
         stalled = acc[(g4[ok] < _GSTALL) | (backwards[acc] >= _MAX_BACKWARDS)]
-        _check_end(y, acc, tg, rad, target, finish, hist, inside, (v4[ok], acc), floor)
+        _check_end(y, acc, spheres, target, finish, inside, (v4[ok], acc), floor)
         still = stalled[active[stalled]]
         finish(still, "stalled")
         over = acc[active[acc] & (steps[acc] >= max_steps)]
         finish(over, "steps")
-    return PathBundle([np.asarray(hh) for hh in hist], target, reason)
+    return PathBundle(_polylines(p, log_idx, log_pts, first_points, target, tg), target, reason)
 
 
-def _check_end(y, idx, tg, rad, target, finish, hist, inside, values, floor):
+def _polylines(p, log_idx, log_pts, first_points, target, tg):
+    """Each path's vertices: its first point, its steps in order, the target it reached."""
+    idx = np.concatenate(log_idx)
+    pts = np.concatenate(log_pts)
+    order = np.argsort(idx, kind="stable")
+    pts = pts[order]
+    ends = np.cumsum(np.bincount(idx, minlength=p))
+    out = []
+    for i in range(p):
+        parts = [pts[ends[i - 1] if i else 0:ends[i]]]
+        if first_points is not None:
+            parts.insert(0, np.asarray(first_points[i], dtype=float).reshape(1, 3))
+        if target[i] >= 0:
+            parts.append(tg[target[i]][None])
+        out.append(np.concatenate(parts) if len(parts) > 1 else parts[0].copy())
+    return out
+
+
+def _check_end(y, idx, spheres, target, finish, inside, values, floor):
     """End the paths `idx` that reached a target, left the region or the floor."""
     if len(idx) == 0:
         return
     yi = y[idx]
+    tg, rad = spheres.centres, spheres.radii
     if len(tg):
-        d = np.linalg.norm(yi[:, None, :] - tg[None], axis=-1) - rad[None]
-        best = np.argmin(d, axis=1)
-        hit = d[np.arange(len(idx)), best] < 0
-        for i, t in zip(idx[hit], best[hit]):
-            target[i] = t
-            hist[i].append(tg[t].copy())
+        hit = np.zeros(len(idx), dtype=bool)
+        near = np.nonzero(spheres.near(yi))[0]
+        if len(near):
+            d = np.linalg.norm(yi[near][:, None, :] - tg[None], axis=-1) - rad[None]
+            best = np.argmin(d, axis=1)
+            got = d[np.arange(len(near)), best] < 0
+            hit[near[got]] = True
+            target[idx[near[got]]] = best[got]
         finish(idx[hit], TARGET)
         idx, yi = idx[~hit], yi[~hit]
         if values is not None:

@@ -66,14 +66,10 @@ def _corner_any_all(b, periodic):
         b = np.concatenate([b, b[:1]], axis=0)
         b = np.concatenate([b, b[:, :1]], axis=1)
         b = np.concatenate([b, b[:, :, :1]], axis=2)
-    c = [b[i:i + b.shape[0] - 1, j:j + b.shape[1] - 1, k:k + b.shape[2] - 1]
-         for i in (0, 1) for j in (0, 1) for k in (0, 1)]
-    anyv = c[0].copy()
-    allv = c[0].copy()
-    for x in c[1:]:
-        anyv |= x
-        allv &= x
-    return anyv, allv
+    # the eight corners reduced one axis at a time (pairs along x, then y, then z)
+    anyv, allv = b[:-1] | b[1:], b[:-1] & b[1:]
+    anyv, allv = anyv[:, :-1] | anyv[:, 1:], allv[:, :-1] & allv[:, 1:]
+    return anyv[:, :, :-1] | anyv[:, :, 1:], allv[:, :, :-1] & allv[:, :, 1:]
 
 
 def grid_seeds(values, *, floor: float, lo, hi, periodic: bool, level: int = 0,
