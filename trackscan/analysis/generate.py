@@ -42,12 +42,13 @@ import os
 import signal
 import threading
 import time
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
+from trackscan.analysis.interruptible import wait_first
 from trackscan.errors import InputError
 from trackscan.io.atomic import remove_stale_temporaries
 from trackscan.io.folderlock import try_folder_lock
@@ -212,10 +213,13 @@ def run_local(generator, calls, on_done, *, jobs: int = 1) -> None:
     try:
         for i, (value, path, workdir) in enumerate(calls):
             futures[pool.submit(_generate_in_worker, generator, value, path, workdir)] = i
-        for fut in as_completed(futures):
-            reported.add(fut)
-            exc = fut.exception()
-            on_done(futures[fut], None if exc else fut.result(), exc)
+        waiting = set(futures)
+        while waiting:
+            for fut in sorted(wait_first(waiting), key=futures.get):
+                waiting.discard(fut)
+                reported.add(fut)
+                exc = fut.exception()
+                on_done(futures[fut], None if exc else fut.result(), exc)
     except BaseException:
         # interrupted: keep what finished, then stop the workers (and their programs)
         for fut, i in futures.items():

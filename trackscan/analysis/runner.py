@@ -18,11 +18,12 @@ import dataclasses
 import logging
 import multiprocessing
 import os
-from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from concurrent.futures import ProcessPoolExecutor
 
 import numpy as np
 
 from trackscan.analysis.cache import cache_key, file_digest, load_entry, store_entry
+from trackscan.analysis.interruptible import wait_first
 from trackscan.errors import InputError
 from trackscan.model import Frame, ScanFormatError
 from trackscan.io.filecheck import regular_file_problem
@@ -257,7 +258,7 @@ def _run(calls, *, jobs, dask):
         try:
             top_up()
             while pending:
-                finished, _ = wait(pending, return_when=FIRST_COMPLETED)
+                finished = wait_first(pending)
                 for fut in sorted(finished, key=pending.get):
                     k = pending.pop(fut)
                     frame = fut.result()
