@@ -1,10 +1,11 @@
 """A signal taken by another thread still interrupts the wait for worker results.
 
-Found by the kill-point test: ``refine --jobs 2`` ignored a SIGINT now and
-then, because the signal was delivered to one of the process pool's threads
-while the main thread waited on a lock without a timeout (CPython runs
-signal handlers only in the main thread).  Here the signal is sent to a
-helper thread on purpose (``signal.pthread_kill``).
+CPython runs signal handlers only in the main thread; when the signal is
+delivered to another thread (POSIX allows any thread that does not block
+it) while the main thread waits on a lock without a timeout, the handler
+never runs.  Here the signal is sent to a helper thread on purpose
+(``signal.pthread_kill``); the plain ``concurrent.futures.wait`` fails this
+test.
 """
 
 import signal
@@ -16,7 +17,15 @@ import pytest
 from trackscan.analysis.interruptible import wait_first
 
 
-def test_sigint_delivered_to_another_thread_interrupts_the_wait():
+@pytest.fixture
+def default_sigint():
+    """Python's own SIGINT handler (an earlier test's library may have replaced it)."""
+    previous = signal.signal(signal.SIGINT, signal.default_int_handler)
+    yield
+    signal.signal(signal.SIGINT, previous)
+
+
+def test_sigint_delivered_to_another_thread_interrupts_the_wait(default_sigint):
     release = threading.Event()
     with ThreadPoolExecutor(max_workers=1) as pool:
         fut = pool.submit(release.wait, 30.0)          # not done until released

@@ -83,6 +83,9 @@ if __name__ == "__main__":
 
     # the test sends SIGUSR1 to a run that does not stop in time: every thread's stack
     faulthandler.register(signal.SIGUSR1, all_threads=True)
+    # a SIGINT ignored by the test runner is inherited and Python then leaves it
+    # ignored; a user's interactive shell delivers it, so the run must see it
+    signal.signal(signal.SIGINT, signal.default_int_handler)
     sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
     import killpoint_generator            # workers unpickle the class from this module name
 

@@ -7,9 +7,10 @@ feeder and the result manager) are candidates.  When one of them takes the
 signal, the main thread, blocked without a timeout on a lock inside
 :func:`concurrent.futures.as_completed` or :func:`concurrent.futures.wait`,
 is not woken, and the ``KeyboardInterrupt`` that should stop the run is
-never raised: ``trackscan refine`` ignored a Ctrl-C in about one run in ten
-of the kill-point test.  Waiting in short slices makes the main thread
-return to bytecode often, so the pending handler runs within one slice.
+never raised.  POSIX lets the kernel pick any thread that does not block the
+signal; Linux prefers the main thread, other systems need not.  Waiting in
+short slices makes the main thread return to bytecode often, so a pending
+handler runs within one slice wherever the signal landed.
 """
 
 from __future__ import annotations
