@@ -967,12 +967,21 @@ class ScanResult(_Model):
         return (f"<ScanResult {self.scan.name!r}: {len(self.frames)} frames, "
                 f"{len(self.structures)} structure(s), {len(self.changes)} change(s)>")
 
+    def frame_name(self, index: int) -> str:
+        """The stable name of the frame at scan position `index` (``"4"``, ``"r2"``).
+
+        The position itself, as text, when no frame has it.
+        """
+        try:
+            return self.frame(index).name
+        except KeyError:
+            return str(index)
+
     def frame_names(self, change) -> tuple:
         """The stable names of the two frames of a change (``("4", "r2")``)."""
         if change.between_labels:
             return tuple(str(x) for x in change.between_labels)
-        names = {f.index: f.name for f in self.frames}
-        return tuple(names.get(k, str(k)) for k in change.between)
+        return tuple(self.frame_name(k) for k in change.between)
 
     def frame(self, index: int) -> Frame:
         """The frame with this index (scan order)."""

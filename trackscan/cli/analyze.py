@@ -18,13 +18,13 @@ only files it wrote there (listed in DIR/.trackscan-output).
 from __future__ import annotations
 
 import math
-import os
 import sys
 from pathlib import Path
 
 from trackscan.analysis import analyze_scan, write_scan
 from trackscan.io.manifest import load_manifest
-from trackscan.cli.outputs import add_report_argument, output_folder, write_or_drop_report
+from trackscan.cli.outputs import (add_report_argument, output_folder, write_or_drop_report,
+                                   wrote_line)
 from trackscan.progress import TextProgress
 from trackscan.tracking import describe_change
 
@@ -96,8 +96,7 @@ def summary_lines(scan) -> list:
                              "are linked differs")
     bad = scan.incomplete_frames
     if bad:
-        names = {f.index: f.name for f in frames}
-        lines.append("warning: frame(s) " + ", ".join(names.get(k, str(k)) for k in bad) +
+        lines.append("warning: frame(s) " + ", ".join(scan.frame_name(k) for k in bad) +
                      " fail Poincaré–Hopf (critical points may be missing); changes next to "
                      "them are unresolved")
     for w in scan.early_warnings:
@@ -126,6 +125,6 @@ def _analyze(args, manifest, out) -> int:
     progress.close()
     for line in summary_lines(scan):
         print(line)
-    print(f"wrote {os.fspath(path)}" + (f" and {os.fspath(html)}" if html else ""))
+    print(wrote_line(path, html))
     sys.stdout.flush()
     return 0

@@ -14,13 +14,14 @@ from __future__ import annotations
 
 import contextlib
 import logging
+import os
 import shutil
 from pathlib import Path
 
 from trackscan.errors import InputError
 from trackscan.io.output import open_output_dir
 
-__all__ = ["output_folder", "add_report_argument", "write_or_drop_report"]
+__all__ = ["output_folder", "add_report_argument", "write_or_drop_report", "wrote_line"]
 
 logger = logging.getLogger(__name__)
 
@@ -78,3 +79,8 @@ def write_or_drop_report(args, scan_json, out, *, source_dir, progress=None):
                   f"draw a new one with: trackscan report {out}", file=sys.stderr)
         return None
     return write_report(scan_json, out, source_dir=source_dir, progress=progress).html
+
+
+def wrote_line(scan_json, html) -> str:
+    """The closing line of a command: scan.json, and the report when one was written."""
+    return f"wrote {os.fspath(scan_json)}" + (f" and {os.fspath(html)}" if html else "")

@@ -7,8 +7,9 @@ boundaries instead of the 1-D change table.
 
 from __future__ import annotations
 
-import os
 import sys
+
+from trackscan.cli.outputs import wrote_line
 from trackscan.progress import TextProgress
 from trackscan.tracking import describe_change
 
@@ -59,9 +60,6 @@ def _write(args, scan, out, manifest, progress=None):
     return path, html
 
 
-def _wrote(path, html) -> str:
-    return f"wrote {os.fspath(path)}" + (f" and {os.fspath(html)}" if html else "")
-
 
 def analyze_plane_command(args, manifest, out) -> int:
     """``trackscan analyze`` on a plane manifest, into the output folder `out`."""
@@ -74,7 +72,7 @@ def analyze_plane_command(args, manifest, out) -> int:
     progress.close()
     for line in plane_summary_lines(scan):
         print(line)
-    print(_wrote(path, html))
+    print(wrote_line(path, html))
     sys.stdout.flush()
     return 0
 
@@ -107,6 +105,6 @@ def refine_plane_command(args, manifest, out) -> int:
           + f", {result.total_evaluations} in all")
     for line in plane_summary_lines(scan):
         print(line)
-    print(_wrote(path, html))
+    print(wrote_line(path, html))
     sys.stdout.flush()
     return 0

@@ -34,12 +34,11 @@ DIR and generates into the frames folder; a second stops with one line
 
 from __future__ import annotations
 
-import os
 import sys
 from pathlib import Path
 
 from trackscan.cli.analyze import summary_lines
-from trackscan.cli.outputs import add_report_argument, write_or_drop_report
+from trackscan.cli.outputs import add_report_argument, write_or_drop_report, wrote_line
 from trackscan.io.manifest import load_manifest
 from trackscan.progress import TextProgress
 
@@ -118,6 +117,6 @@ def _refine(args, manifest, out) -> int:
           f"{result.total_evaluations} in all")
     for line in summary_lines(scan):
         print(line)
-    print(f"wrote {os.fspath(path)}" + (f" and {os.fspath(html)}" if html else ""))
+    print(wrote_line(path, html))
     sys.stdout.flush()
     return 0

@@ -150,11 +150,7 @@ class ScanView:
         idx = sorted(int(i) for i in indices)
         if not idx:
             return "—"
-
-        def name(i):
-            f = self.frame(i)
-            return f.name if f is not None else str(i)
-
+        name = self.result.frame_name
         runs, start, prev = [], idx[0], idx[0]
         for i in idx[1:] + [None]:
             if i is not None and i == prev + 1:

@@ -257,7 +257,7 @@ def warning_table(scan: ScanView):
                 details.append("extrapolated to a change near " + ", ".join(zeros))
         if w.change_between:
             details.append("followed by the change between frames "
-                           + " and ".join(scan.frame_ranges([x]) for x in w.change_between))
+                           + " and ".join(scan.result.frame_name(x) for x in w.change_between))
         else:
             details.append("no change involving it inside the scan")
         rows.append((f"bond path {atoms}", signs or "—", "; ".join(details)))

@@ -187,7 +187,7 @@ def resolution_words(scan: ScanView, change: Change) -> str:
     for pair in res.pairs:
         frame = scan.frame(pair.frame)
         who = " and ".join(_cp_name(scan, frame, t) for t in pair.tracks or ())
-        text = f"{who} in frame {scan.frame_label(frame) if frame is not None else pair.frame}"
+        text = f"{who} in frame {scan.result.frame_name(pair.frame)}"
         sep, drho, floor = pair.separation_bohr, pair.rho_difference, pair.rho_floor
         if _finite(sep):
             text += f": {fmt_sig(sep * BOHR_IN_ANGSTROM, 3)} Å apart"

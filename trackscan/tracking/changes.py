@@ -237,8 +237,8 @@ def _mark_noise(steps, views, tracks, aligned, settings):
                 drho = abs(hi.rho - lo.rho)
                 floor = rho_floor(max(lo.rho, hi.rho), mid.spacing, _digits(mid, settings))
                 if drho < settings.significance * floor:
-                    note = (f"the pair {pair[0]}/{pair[1]} exists only in frame {mid.label}, with a "
-                            f"density difference {drho:.2g} below {settings.significance:g} x the "
+                    note = (f"the pair {pair[0]}/{pair[1]} exists only in frame {mid.label}, "
+                            f"with a density difference {drho:.2g} below {settings.significance:g} x the "
                             f"frame's resolution floor {floor:.2g}: noise, not a structural change")
                     s1.noise.append(note)
                     s2.noise.append(note)
@@ -258,8 +258,8 @@ def _mark_noise(steps, views, tracks, aligned, settings):
                     floor = rho_floor(max(p.rho, q.rho), v.spacing, _digits(v, settings))
                     small &= abs(q.rho - p.rho) < settings.significance * floor
                 if small:
-                    note = (f"a {lo.kind}/{hi.kind} pair is missing only from frame {mid.label} and "
-                            f"its density difference on both sides is below "
+                    note = (f"a {lo.kind}/{hi.kind} pair is missing only from frame {mid.label} "
+                            f"and its density difference on both sides is below "
                             f"{settings.significance:g} x the resolution floor: noise, not a "
                             f"structural change")
                     s1.noise.append(note)

@@ -156,8 +156,8 @@ def early_warnings(series, changes, *, horizon, sign, unit="", elements=(), labe
             msg = (f"{where}: {names} from frame {frame_name(flagged[0])}; the change between "
                    f"frames {frame_name(follow[0])} and {frame_name(follow[1])} followed")
         else:
-            msg = (f"{where}: {names} from frame {frame_name(flagged[0])} (projected to vanish near {proj}); "
-                   f"no structural change involving it occurs inside the scan")
+            msg = (f"{where}: {names} from frame {frame_name(flagged[0])} (projected to vanish "
+                   f"near {proj}); no structural change involving it occurs inside the scan")
         out.append({"track": s["track"], "atoms": s["atoms"], "frames": flagged,
                     "indicators": sorted(kinds), "projected": projected,
                     "change_between": follow, "message": msg})
